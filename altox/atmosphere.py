@@ -1,0 +1,190 @@
+"""Barometric pressure by altitude and its inverse: the ICAO standard atmosphere and a mountain model atmosphere.
+
+Two models, chosen by name (an unknown name raises a ``ValueError`` listing the valid ones):
+
+``"isa"``
+    ICAO Standard Atmosphere (Doc 7488/3, 1993), identical to the U.S. Standard Atmosphere
+    1976 below 32 km, computed by the ``ambiance`` package [ICAO1993]_.  Input is *geometric*
+    altitude.  Aviation's pressure altitude is, by definition, the ISA altitude of the
+    ambient pressure; altox reads flight levels and cabin altitudes as pressure altitudes
+    and converts them with :func:`altitude_for_pressure`.
+``"mountain"``
+    The model atmosphere of West (1996) for mountain sites,
+    ``PB = exp(6.63268 - 0.1112 h - 0.00149 h**2)`` Torr with ``h`` in km [West1996]_.
+    It fits measured pressures on high mountains near latitude 30 degrees N in the climbing
+    seasons (the highest summit: about 253 Torr measured against 236 Torr in the ISA,
+    [West1983a]_).  Pressures are lower at high latitudes and in winter: West (1996)
+    tabulates sites near 63 degrees N several Torr below the model.  altox accepts the model
+    from -500 m to 9,000 m.
+
+A measured pressure, where known, overrides both (see :func:`altox.assess`).
+
+References
+----------
+.. [ICAO1993] ICAO. Manual of the ICAO Standard Atmosphere, Doc 7488/3, 3rd ed., 1993.
+.. [West1996] West JB. Prediction of barometric pressures at high altitudes with the use
+   of model atmospheres. J Appl Physiol 1996;81:1850-1854.
+.. [West1983a] West JB, et al. Barometric pressures at extreme altitudes on Mt. Everest:
+   physiological significance. J Appl Physiol 1983;54:1188-1194.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .errors import OutOfRangeError
+from .units import PA_PER_MMHG, PA_PER_TORR
+
+ATMOSPHERES = ("isa", "mountain")
+
+# ambiance's documented domain (geometric altitude, m)
+ISA_MIN_M = -5004.0
+ISA_MAX_M = 81020.0
+# the mountain model: fitted to sites up to the highest summit; a little headroom
+MOUNTAIN_MIN_M = -500.0
+MOUNTAIN_MAX_M = 9000.0
+
+# West (1996) coefficients, PB in Torr, h in km
+_WEST_A = 6.63268
+_WEST_B = 0.1112
+_WEST_C = 0.00149
+_TORR_TO_MMHG = PA_PER_TORR / PA_PER_MMHG  # 1.00000014: Torr and mmHg differ by 1.4e-7
+
+SEA_LEVEL_MMHG = 101325.0 / PA_PER_MMHG    # ISA sea-level pressure, 760.0 mmHg
+
+
+def _check_name(atmosphere: str) -> str:
+    if atmosphere not in ATMOSPHERES:
+        raise ValueError(f"unknown atmosphere {atmosphere!r}; valid: {', '.join(ATMOSPHERES)}")
+    return atmosphere
+
+
+def _check_range(values, lo, hi, what, unit, model):
+    arr = np.asarray(values, dtype=float)
+    bad = ~np.isfinite(arr) | (arr < lo) | (arr > hi)
+    if np.any(bad):
+        first = arr[bad].flat[0] if arr.ndim else float(arr)
+        raise OutOfRangeError(
+            f"{what} {first:g} {unit} is outside the {model} model's range "
+            f"({lo:g} to {hi:g} {unit}).", field=what, value=float(first),
+            expected=f"{lo:g} to {hi:g} {unit}")
+    return arr
+
+
+def _shape_like(result, template):
+    """Give ``result`` the shape of ``template``; a Python float for scalar input."""
+    result = np.asarray(result, dtype=float).reshape(np.shape(template))
+    return float(result) if result.ndim == 0 else result
+
+
+def barometric_pressure(altitude_m, atmosphere: str = "isa"):
+    """Barometric pressure at a geometric altitude.
+
+    Parameters
+    ----------
+    altitude_m : numeric
+        Geometric altitude above mean sea level. [m]
+    atmosphere : {'isa', 'mountain'}
+        ``'isa'``: ICAO standard atmosphere via ``ambiance`` (-5004 to 81020 m).
+        ``'mountain'``: West (1996) model atmosphere for mountain sites (-500 to 9000 m).
+
+    Returns
+    -------
+    pb_mmhg : numeric
+        Barometric pressure, same shape as ``altitude_m``. [mmHg]
+
+    Raises
+    ------
+    OutOfRangeError
+        An altitude outside the model's range, NaN or infinity.
+
+    Notes
+    -----
+    West (1996): ``PB[Torr] = exp(6.63268 - 0.1112 h - 0.00149 h^2)``, ``h`` in km.
+
+    Examples
+    --------
+    >>> round(barometric_pressure(0.0), 2)
+    760.0
+    >>> round(barometric_pressure(8848.0, "mountain"), 1)
+    252.7
+    """
+    _check_name(atmosphere)
+    if atmosphere == "isa":
+        h = _check_range(altitude_m, ISA_MIN_M, ISA_MAX_M, "altitude", "m", "ICAO standard atmosphere")
+        from ambiance import Atmosphere  # heavy import, only when needed
+
+        p_pa = Atmosphere(np.atleast_1d(h)).pressure.reshape(np.shape(h))
+        return _shape_like(p_pa / PA_PER_MMHG, altitude_m)
+    h = _check_range(altitude_m, MOUNTAIN_MIN_M, MOUNTAIN_MAX_M, "altitude", "m", "mountain")
+    h_km = h / 1000.0
+    pb = np.exp(_WEST_A - _WEST_B * h_km - _WEST_C * h_km**2) * _TORR_TO_MMHG
+    return _shape_like(pb, altitude_m)
+
+
+def altitude_for_pressure(pb_mmhg, atmosphere: str = "isa"):
+    """Geometric altitude at which the model atmosphere has a given pressure.
+
+    For ``'isa'`` this is the pressure altitude of aviation expressed as geometric
+    altitude of the standard atmosphere (ambiance's ``from_pressure``).  For ``'mountain'``
+    the West (1996) quadratic in ``h`` is solved in closed form.
+
+    Parameters
+    ----------
+    pb_mmhg : numeric
+        Barometric pressure. [mmHg]
+    atmosphere : {'isa', 'mountain'}
+
+    Returns
+    -------
+    altitude_m : numeric
+        Geometric altitude, same shape as ``pb_mmhg``. [m]
+
+    Raises
+    ------
+    OutOfRangeError
+        A pressure outside the pressures the model spans over its altitude range.
+    """
+    _check_name(atmosphere)
+    if atmosphere == "isa":
+        lo = float(barometric_pressure(ISA_MAX_M, "isa"))
+        hi = float(barometric_pressure(ISA_MIN_M, "isa"))
+        p = _check_range(pb_mmhg, lo, hi, "pressure", "mmHg", "ICAO standard atmosphere")
+        from ambiance import Atmosphere
+
+        h = Atmosphere.from_pressure(np.atleast_1d(p) * PA_PER_MMHG).h.reshape(np.shape(p))
+        return _shape_like(h, pb_mmhg)
+    lo = float(barometric_pressure(MOUNTAIN_MAX_M, "mountain"))
+    hi = float(barometric_pressure(MOUNTAIN_MIN_M, "mountain"))
+    p = _check_range(pb_mmhg, lo, hi, "pressure", "mmHg", "mountain")
+    c = np.log(p / _TORR_TO_MMHG) - _WEST_A
+    # 0.00149 h^2 + 0.1112 h + c = 0, positive root
+    h_km = (-_WEST_B + np.sqrt(_WEST_B**2 - 4.0 * _WEST_C * c)) / (2.0 * _WEST_C)
+    return _shape_like(h_km * 1000.0, pb_mmhg)
+
+
+def pressure_altitude_ft_to_mmhg(pressure_altitude_ft):
+    """Pressure of a pressure altitude (flight level, cabin altitude) given in feet. [mmHg]
+
+    Pressure altitude is the ISA geopotential height of the pressure; ambiance takes
+    geometric height, so the geopotential value is converted first (the difference is
+    about 0.15 % at 40,000 ft).
+    """
+    from ambiance import Atmosphere
+
+    from .units import M_PER_FT
+
+    geop_m = np.asarray(pressure_altitude_ft, dtype=float) * M_PER_FT
+    geom_m = Atmosphere.geop2geom_height(geop_m)
+    return barometric_pressure(_shape_like(geom_m, pressure_altitude_ft), "isa")
+
+
+def pressure_altitude_ft(pb_mmhg):
+    """Pressure altitude (ISA geopotential height of the pressure) in feet. [ft]"""
+    from ambiance import Atmosphere
+
+    from .units import M_PER_FT
+
+    geom_m = altitude_for_pressure(pb_mmhg, "isa")
+    geop_m = Atmosphere.geom2geop_height(np.asarray(geom_m, dtype=float))
+    return _shape_like(geop_m / M_PER_FT, pb_mmhg)

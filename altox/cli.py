@@ -1,0 +1,147 @@
+"""The altox command line: thin commands over the library; errors become one message and exit status 2."""
+
+from __future__ import annotations
+
+import sys
+from typing import Optional
+
+import typer
+
+from .errors import AltoxError, ProfileError
+
+app = typer.Typer(
+    add_completion=False,
+    no_args_is_help=True,
+    help="Plan hypoxic exposure: per-leg physiology of ascent itineraries and flight profiles, "
+         "checked against published guidance. Guidance only; never a clearance.",
+)
+
+_DEBUG = {"on": False}
+
+
+def _fail(message: str, status: int = 2) -> None:
+    typer.echo(f"Error: {message}", err=True)
+    raise typer.Exit(status)
+
+
+def run_guarded(func):
+    """Call ``func``; named errors become one message and exit 2, bugs a short note and exit 1."""
+    try:
+        return func()
+    except typer.Exit:
+        raise
+    except ProfileError as exc:
+        _fail(f"{exc.location()}: {exc.message}")
+    except AltoxError as exc:
+        _fail(exc.message)
+    except Exception as exc:  # a bug, not bad input
+        if _DEBUG["on"]:
+            raise
+        typer.echo(f"Internal error ({type(exc).__name__}: {exc}). This is a bug in altox, not in your "
+                   "input; run again with --debug for the traceback.", err=True)
+        raise typer.Exit(1)
+
+
+@app.callback()
+def _root(debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors.")):
+    _DEBUG["on"] = debug
+
+
+def _parse_number(text, option: str, lo: float, hi: float, unit: str = ""):
+    from .errors import UnitError
+
+    expected = f"a number from {lo:g} to {hi:g}{(' ' + unit) if unit else ''}"
+    try:
+        value = float(str(text).replace(",", ""))
+    except ValueError:
+        raise UnitError(f"{option}: {text!r} is not a number; expected {expected}.") from None
+    if value != value or value in (float("inf"), float("-inf")) or not lo <= value <= hi:
+        raise UnitError(f"{option}: {text!r} is outside the accepted range; expected {expected}.")
+    return value
+
+
+@app.command()
+def point(
+    altitude: Optional[str] = typer.Option(None, "--altitude", help="Altitude with unit: 4500m, 14800ft, 4.5km."),
+    atmosphere: str = typer.Option("isa", "--atmosphere", help="isa (ICAO standard) or mountain (West 1996)."),
+    pressure: Optional[str] = typer.Option(None, "--pressure",
+                                           help="Measured pressure with unit (mmHg, Torr, kPa, hPa, inHg); "
+                                                "overrides the atmosphere model."),
+    fio2: str = typer.Option("0.2095", "--fio2", help="Inspired O2 fraction in (0, 1], e.g. 0.21 or '30 %'."),
+    days: str = typer.Option("0", "--days", help="Days at this altitude (0 = acute)."),
+    age: str = typer.Option("40", "--age", help="Age in years."),
+    hb: Optional[str] = typer.Option(None, "--hb", help="Hemoglobin in g/dL (default 14.5)."),
+    rq: str = typer.Option("0.8", "--rq", help="Respiratory exchange ratio."),
+    paco2: Optional[str] = typer.Option(None, "--paco2", help="Measured arterial PCO2 in mmHg (replaces the model)."),
+    ph: Optional[str] = typer.Option(None, "--ph", help="Measured arterial pH (replaces the acid-base model)."),
+    json_out: bool = typer.Option(False, "--json", help="Print one JSON object instead of the table."),
+):
+    """The whole resting physiology chain at one place: pressure, PIO2, PAO2, PaO2, pH, SaO2, O2 content."""
+
+    def body():
+        from .units import parse_fraction, parse_quantity
+
+        if atmosphere not in ("isa", "mountain"):
+            from .errors import UnitError
+            raise UnitError(f"--atmosphere: {atmosphere!r} is not a model; expected isa or mountain.")
+        if altitude is None and pressure is None:
+            from .errors import UnitError
+            raise UnitError("give --altitude (e.g. 4500m) or --pressure (e.g. 430mmHg), or both.")
+        alt_m = parse_quantity(altitude, "length", field="--altitude") if altitude is not None else None
+        pb = parse_quantity(pressure, "pressure", field="--pressure") if pressure is not None else None
+        fio2_v = parse_fraction(fio2, field="--fio2")
+        opts = dict(
+            days=_parse_number(days, "--days", 0, 3650, "days"),
+            age_y=_parse_number(age, "--age", 0, 110, "years"),
+            rq=_parse_number(rq, "--rq", 0.6, 1.2),
+        )
+        if hb is not None:
+            opts["hb_g_dl"] = _parse_number(hb, "--hb", 3, 25, "g/dL")
+        if paco2 is not None:
+            opts["paco2_mmhg"] = _parse_number(paco2, "--paco2", 5, 120, "mmHg")
+        if ph is not None:
+            opts["ph"] = _parse_number(ph, "--ph", 6.5, 8.0)
+        if alt_m is not None and alt_m > 9000 and atmosphere == "mountain":
+            from .errors import OutOfRangeError
+            raise OutOfRangeError(f"--altitude: {altitude!r} is {alt_m:,.0f} m, above the mountain model's "
+                                  "range (-500 to 9,000 m); did you mean feet?")
+        from .chain import assess
+
+        try:
+            result = assess(alt_m, atmosphere=atmosphere, pb_mmhg=pb, fio2=fio2_v, **opts)
+        except AltoxError as exc:
+            field = {"altitude": "--altitude", "pressure": "--pressure"}.get(exc.field or "", None)
+            if field:
+                shown = altitude if field == "--altitude" else pressure
+                raise type(exc)(f"{field}: {shown!r}: {exc.message}", field=field) from None
+            raise
+        from . import render
+
+        if json_out:
+            typer.echo(render.to_json(result))
+            return
+        from rich.console import Console
+
+        exposure = ("acute exposure (first hours)" if opts["days"] == 0
+                    else f"{opts['days']:g} days at this altitude")
+        model = {"isa": " (ICAO standard, Doc 7488)", "mountain": " (West 1996 model for mountain sites)"}
+        assumptions = [
+            f"Atmosphere: {result['atmosphere']}{model.get(result['atmosphere'], '')}",
+            f"Resting, awake, {exposure}; age {opts['age_y']:g}; respiratory exchange ratio {opts['rq']:g}.",
+            "PaCO2 taken equal to PACO2; body temperature 37 degC.",
+        ]
+        if paco2 is not None:
+            assumptions.append("PaCO2 as measured (ventilation model not used).")
+        if ph is not None:
+            assumptions.append("pH as measured (acid-base model not used).")
+        Console().print(render.point_table(result, assumptions))
+
+    run_guarded(body)
+
+
+def main() -> None:  # console-script entry point
+    app(prog_name="altox")
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

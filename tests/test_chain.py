@@ -1,0 +1,101 @@
+"""Invariants of the whole chain (hypothesis) and its contract."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings, strategies as st
+
+import altox
+from altox.chain import ASSESS_KEYS
+from altox.errors import OutOfRangeError
+
+ISSUE_KEYS = ("altitude_m", "atmosphere", "barometric_mmhg", "fio2", "inspired_po2_mmhg",
+              "alveolar_pco2_mmhg", "alveolar_po2_mmhg", "arterial_po2_mmhg", "arterial_ph",
+              "sao2_pct", "o2_content_ml_dl", "equivalent_altitude_m")
+
+# the physiological domain: terrain up to the highest summit, or aircraft cabins and
+# open cockpits breathing air up to the altitude where a resting steady state still exists
+altitudes = st.floats(-400.0, 8900.0)
+days = st.floats(0.0, 60.0)
+fio2s = st.floats(0.05, 1.0)
+
+
+def test_contract_keys_and_scalars():
+    r = altox.assess(5000.0)
+    assert set(ISSUE_KEYS) <= set(r) == set(ASSESS_KEYS)
+    assert all(isinstance(r[k], (float, bool, str)) for k in r)
+
+
+@settings(max_examples=60, deadline=None)
+@given(altitudes, days, fio2s, st.sampled_from(["isa", "mountain"]), st.floats(18, 90), st.floats(8, 20))
+def test_no_nan_or_inf(alt, d, fio2, atm, age, hb):
+    r = altox.assess(alt, atmosphere=atm, days=d, fio2=fio2, age_y=age, hb_g_dl=hb)
+    for k, v in r.items():
+        if isinstance(v, float) and k != "days_at_altitude":
+            assert np.isfinite(v), k
+    assert r["alveolar_po2_mmhg"] >= 0.0
+    assert 0.0 <= r["sao2_pct"] <= 100.0
+    assert r["solver_converged"]
+
+
+@settings(max_examples=40, deadline=None)
+@given(days, st.sampled_from(["isa", "mountain"]))
+def test_saturation_never_rises_with_altitude_on_air(d, atm):
+    alts = np.linspace(-400.0, 8900.0, 400)
+    s = altox.assess(alts, atmosphere=atm, days=d)["sao2_pct"]
+    # Above ~7,500 m acclimatized alveolar PO2 plateaus near 35 mmHg (West et al. J Appl Physiol
+    # 1983;55:678-687) and saturation with it; inside that plateau the model's saturation is flat
+    # to within 1e-4 percentage points, far below any measurement, so that is the tolerance.
+    assert np.all(np.diff(s) <= 1e-3)
+
+
+@settings(max_examples=40, deadline=None)
+@given(altitudes, days)
+def test_saturation_never_falls_with_more_oxygen(alt, d):
+    fio2 = np.linspace(0.2095, 1.0, 60)
+    s = altox.assess(np.full_like(fio2, alt), atmosphere="mountain", days=d, fio2=fio2)["sao2_pct"]
+    assert np.all(np.diff(s) >= -1e-9)
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.lists(altitudes, min_size=1, max_size=6), days)
+def test_scalar_and_array_agree(alts, d):
+    arr = altox.assess(np.array(alts), atmosphere="mountain", days=d)
+    for i, a in enumerate(alts):
+        one = altox.assess(a, atmosphere="mountain", days=d)
+        for k in ("sao2_pct", "arterial_po2_mmhg", "alveolar_pco2_mmhg", "arterial_ph"):
+            assert arr[k][i] == pytest.approx(one[k], rel=1e-12, abs=1e-12)
+
+
+def test_alveolar_clamp_is_flagged():
+    # a measured PaCO2 that the inspired gas cannot support drives the equation below zero
+    r = altox.assess(8000.0, paco2_mmhg=60.0)
+    assert r["alveolar_po2_mmhg"] == 0.0 and r["alveolar_po2_clamped"]
+
+
+def test_measured_pressure_overrides_model():
+    r = altox.assess(8848.0, atmosphere="mountain", pb_mmhg=253.0)
+    assert r["barometric_mmhg"] == 253.0 and r["atmosphere"] == "measured"
+    alone = altox.assess(pb_mmhg=405.4)
+    assert alone["altitude_m"] == pytest.approx(5000.0, abs=2.0)
+
+
+def test_flight_cabin_8000ft_saturation():
+    # An 8,000 ft cabin: healthy passengers' SpO2 falls to about 92-93 % (Humphreys S et al.
+    # Anaesthesia 2005;60:458-460: 97 -> 93 %; Kelly PT et al. Aviat Space Environ Med 2006;77:1143:
+    # 97 -> 92 %) and about 4.4 points below ground (Muhm JM et al. N Engl J Med 2007;357:18-27).
+    r = altox.assess(8000 * 0.3048, atmosphere="isa", age_y=40)
+    assert r["sao2_pct"] == pytest.approx(92.5, abs=2.5)
+    sea = altox.assess(0.0, age_y=40)
+    assert sea["sao2_pct"] - r["sao2_pct"] == pytest.approx(4.4, abs=2.0)
+
+
+@pytest.mark.parametrize("kwargs, match", [
+    (dict(altitude_m=5000.0, fio2=0.0), "FiO2"),
+    (dict(altitude_m=5000.0, fio2=21.0), "FiO2"),
+    (dict(pb_mmhg=40.0), "water vapour"),
+    (dict(altitude_m=float("nan")), "outside"),
+    (dict(), "altitude"),
+])
+def test_bad_input(kwargs, match):
+    with pytest.raises(OutOfRangeError, match=match):
+        altox.assess(**kwargs)
