@@ -139,6 +139,95 @@ def point(
     run_guarded(body)
 
 
+def _load_and_evaluate(path: str, rules: list[str]):
+    from .evaluate import evaluate_plan
+    from .profile import load_plan
+
+    plan = load_plan(path)
+    if rules:
+        plan = plan.model_copy(update={"rules": [r for r in rules if not _is_file(r)] or list(plan.rules)})
+        files = [r for r in rules if _is_file(r)]
+        if files:
+            plan = plan.model_copy(update={"rule_file": str(__import__("pathlib").Path(files[0]).resolve())})
+    return evaluate_plan(plan)
+
+
+def _is_file(text: str) -> bool:
+    return text.endswith((".yaml", ".yml")) or "/" in text
+
+
+@app.command()
+def plan(
+    files: list[str] = typer.Argument(..., help="Plan files (YAML)."),
+    json_out: bool = typer.Option(False, "--json", help="Print JSON instead of tables."),
+    csv_out: bool = typer.Option(False, "--csv", help="Print CSV, one row per leg."),
+    timeline: bool = typer.Option(False, "--timeline", help="With --json or --csv: include every time sample."),
+    feet: bool = typer.Option(False, "--feet", help="Show expedition altitudes in feet."),
+    rules: list[str] = typer.Option([], "--rules", help="Rule-set id or your own rule file; repeat for "
+                                                        "several. Replaces the plan's own list."),
+):
+    """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
+    from . import render
+
+    results, failed = [], []
+    for path in files:
+        try:
+            results.append(run_guarded(lambda: _load_and_evaluate(path, rules)))
+        except typer.Exit as exc:
+            if exc.exit_code == 0:
+                raise
+            failed.append(path)
+    if json_out:
+        data = [render.plan_to_dict(r, timeline=timeline) for r in results]
+        typer.echo(render.to_json(data[0] if len(files) == 1 and data else data))
+    elif csv_out:
+        rows = [row for r in results for row in render.plan_csv_rows(r, timeline=timeline)]
+        typer.echo(render.to_csv(rows), nl=False)
+    else:
+        from rich.console import Console
+
+        console = Console()
+        for r in results:
+            for part in render.plan_renderables(r, feet=feet):
+                console.print(part)
+            console.print()
+    if failed:
+        typer.echo(f"Error: {len(failed)} of {len(files)} plan(s) failed: {', '.join(failed)}", err=True)
+        raise typer.Exit(2)
+
+
+@app.command()
+def check(files: list[str] = typer.Argument(..., help="Plan files (YAML).")):
+    """Validate plan files without computing: format, units, order of days and legs."""
+    failed = []
+    for path in files:
+        def body(path=path):
+            from .profile import load_plan
+
+            p = load_plan(path)
+            n = len(p.days) if p.kind == "expedition" else len(p.legs)
+            typer.echo(f"ok: {path} ({p.kind}, {n} {'days' if p.kind == 'expedition' else 'legs'})")
+        try:
+            run_guarded(body)
+        except typer.Exit:
+            failed.append(path)
+    if failed:
+        typer.echo(f"Error: {len(failed)} of {len(files)} plan(s) failed the check: {', '.join(failed)}", err=True)
+        raise typer.Exit(2)
+
+
+@app.command()
+def schema():
+    """Print the JSON Schema of the plan format, for editors that validate YAML."""
+    def body():
+        import json
+
+        from .profile import plan_json_schema
+
+        typer.echo(json.dumps(plan_json_schema(), indent=2))
+    run_guarded(body)
+
+
 def main() -> None:  # console-script entry point
     app(prog_name="altox")
 

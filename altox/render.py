@@ -108,3 +108,152 @@ def point_table(result: dict, assumptions: list[str]):
         notes.append("WARNING: the ventilation model did not converge; values are unreliable.")
     body = Text("Assumptions:\n" + "\n".join(f"- {n}" for n in notes))
     return Group(table, body, caution_panel())
+
+
+# -- plans ------------------------------------------------------------------------------------
+FLAG_BROKEN = "X"   # the plan does not meet this guidance
+FLAG_MET = "+"      # guidance asks for oxygen here and the plan provides it
+FLAG_LEGEND = (f"Flags: {FLAG_BROKEN}n = guidance n (listed below) not met by the plan; "
+               f"{FLAG_MET}n = guidance n asks for oxygen here and the plan provides it.")
+
+
+def _flag_text(result, leg):
+    marks = []
+    for k in leg["flags"]:
+        f = result.findings[k]
+        marks.append(f"{FLAG_MET if f.status == 'required-planned' else FLAG_BROKEN}{k + 1}")
+    return " ".join(marks) or "-"
+
+
+def _fmt_h(hours: float) -> str:
+    if hours >= 48:
+        return f"{hours / 24:.1f} d"
+    if hours >= 1:
+        return f"{hours:.1f} h"
+    return f"{hours * 60:.0f} min"
+
+
+def plan_renderables(result, *, feet: bool = False):
+    """Rich renderables for one evaluated plan: legs, physiology, people, guidance, notes, caution."""
+    from rich.table import Table
+    from rich.text import Text
+
+    out = []
+    head = Text(f"{result.name}  ({result.kind}; {result.source or 'plan'})", style="bold")
+    out.append(head)
+    alt_unit = "ft" if feet else "m"
+    conv = (lambda m: m / 0.3048) if feet else (lambda m: m)
+    where = Table(title="Where and when", title_justify="left", pad_edge=False,
+                  caption="PB and PIO2 at the worst moment of the leg; dose cumulative to its end.",
+                  caption_justify="left")
+    where.add_column("Leg", justify="right")
+    where.add_column("What")
+    if result.kind == "expedition":
+        where.add_column(f"Sleep {alt_unit}", justify="right")
+        where.add_column(f"High {alt_unit}", justify="right")
+    else:
+        where.add_column("Aircraft FL/ft", justify="right")
+        where.add_column("Cabin ft", justify="right")
+    where.add_column("Time", justify="right")
+    where.add_column("PB mmHg", justify="right")
+    where.add_column("PIO2 mmHg", justify="right")
+    where.add_column("Dose km.h", justify="right")
+    for leg in result.legs:
+        what = leg.get("activity") or leg.get("phase")
+        if leg["oxygen_planned"]:
+            what += " +O2"
+        if result.kind == "expedition":
+            a = f"{conv(leg['sleep_altitude_m']):,.0f}"
+            b = f"{conv(leg['high_altitude_m']):,.0f}" if leg["high_altitude_m"] is not None else "-"
+            when = f"day {leg['day']}"
+        else:
+            ac_ft = leg["aircraft_pressure_altitude_ft"]
+            a = f"FL{ac_ft / 100:.0f}" if ac_ft >= 18000 else f"{ac_ft:,.0f}"
+            b = f"{leg['max_cabin_pressure_altitude_ft']:,.0f}"
+            when = _fmt_h(leg["duration_h"])
+        where.add_row(str(leg["leg"]), what, a, b, when, f"{leg['barometric_mmhg']:.0f}",
+                      f"{leg['inspired_po2_mmhg']:.0f}", f"{leg['hypoxic_dose_kmh']:.1f}")
+    out.append(where)
+
+    phys = Table(title="Expected physiology at rest, on air (reference adult, worst moment of each leg)",
+                 title_justify="left", pad_edge=False)
+    for name in ("Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %", "CaO2 mL/dL", "Flags"):
+        phys.add_column(name, justify="left" if name == "Flags" else "right")
+    for leg in result.legs:
+        phys.add_row(str(leg["leg"]), f"{leg['alveolar_pco2_mmhg']:.0f}", f"{leg['alveolar_po2_mmhg']:.0f}",
+                     f"{leg['arterial_po2_mmhg']:.0f}", f"{leg['arterial_po2_mmhg'] * KPA_PER_MMHG:.1f}",
+                     f"{leg['sao2_pct']:.0f}", f"{leg['o2_content_ml_dl']:.1f}", _flag_text(result, leg))
+    out.append(phys)
+    out.append(Text(FLAG_LEGEND))
+
+    if result.members:
+        people = Table(title="People", title_justify="left", pad_edge=False)
+        for name in ("Name", "Role", "Age", "Hb g/dL", "Lowest SaO2 %", "Leg", "Risk (guidance)"):
+            people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right")
+        for m in result.members:
+            people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
+                           f"{m['min_sao2_pct']:.0f}", str(m["min_sao2_leg"]), m.get("risk_category") or "-")
+        out.append(people)
+        texts: dict[str, list[str]] = {}
+        for m in result.members:
+            if m.get("prophylaxis"):
+                texts.setdefault(m["prophylaxis"], []).append(m["name"])
+        for text, names in texts.items():
+            out.append(Text(f"Prevention (guidance) for {', '.join(names)}: {text}"))
+
+    s = result.summary
+    lines = [f"Worst leg: {s['worst_leg']} ({s['worst_leg_label']}), expected SaO2 {s['worst_sao2_pct']:.0f} %.",
+             f"Hypoxic dose: {s['hypoxic_dose_kmh']:.1f} km.h above {s['dose_floor_m']:,.0f} m over "
+             f"{_fmt_h(s['total_hours'])}."]
+    below = [f"{k.split('_')[2]} %: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_below_")]
+    if below:
+        lines.append("Time below SaO2 (reference adult): " + "; ".join(below) + ".")
+    cabin = [f"{int(k.split('_')[3]):,} ft: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_cabin_above_")]
+    if cabin:
+        lines.append("Time with cabin above: " + "; ".join(cabin) + ".")
+    lines.append(f"Guidance applied: {', '.join(result.rule_sets)}; {s['rules_broken']} not met, "
+                 f"{s['rules_touched']} touched.")
+    out.append(Text("Summary\n" + "\n".join(lines)))
+    if result.findings:
+        g = ["Guidance"]
+        for k, f in enumerate(result.findings):
+            mark = FLAG_MET if f.status == "required-planned" else FLAG_BROKEN
+            g.append(f"{mark}{k + 1} [{f.rule_set_id} {f.section}] {f.message} Source: {f.citation}")
+        out.append(Text("\n".join(g)))
+    out.append(Text("Notes\n" + "\n".join(f"- {n}" for n in result.notes)))
+    out.append(caution_panel())
+    return out
+
+
+def plan_to_dict(result, *, timeline: bool = False) -> dict:
+    """JSON-ready mapping of an evaluated plan (same numbers as the tables)."""
+    from dataclasses import asdict
+
+    legs = []
+    for leg in result.legs:
+        row = {k: v for k, v in leg.items() if k != "flags"}
+        row["flags"] = [_flag_text(result, {"flags": [k]}) for k in leg["flags"]]
+        legs.append(row)
+    data = {
+        "plan": result.name, "kind": result.kind, "source": result.source,
+        "rule_sets": result.rule_sets, "summary": result.summary, "legs": legs,
+        "members": result.members, "findings": [asdict(f) for f in result.findings],
+        "notes": result.notes, "caution": CAUTION,
+    }
+    if timeline:
+        n = len(result.samples["time_h"])
+        data["timeline"] = [{k: v[i] for k, v in result.samples.items()} for i in range(n)]
+    return data
+
+
+def plan_csv_rows(result, *, timeline: bool = False) -> list[dict]:
+    """One flat row per leg (or per sample with ``timeline``), each with the plan's name."""
+    if timeline:
+        n = len(result.samples["time_h"])
+        return [{"plan": result.name, **{k: v[i] for k, v in result.samples.items()}} for i in range(n)]
+    rows = []
+    for leg in result.legs:
+        row = {"plan": result.name, **{k: v for k, v in leg.items() if k != "flags"}}
+        row["flags"] = " ".join(_flag_text(result, {"flags": [k]}) for k in leg["flags"])
+        rows.append(row)
+    return rows

@@ -193,7 +193,7 @@ def parse_fraction(value, *, field: str = "fio2") -> float:
     if not math.isfinite(number):
         raise UnitError(f"{field}: {value!r} is not finite; expected {expected}.",
                         field=field, value=value, expected=expected)
-    if number > 1.0 and not (isinstance(value, str) and value.strip().endswith("%")):
+    if 2.0 < number <= 100.0 and not (isinstance(value, str) and value.strip().endswith("%")):
         raise UnitError(f"{field}: {value!r} looks like a percentage; write it as a fraction "
                         f"({number / 100:g}) or with a percent sign ('{number:g} %').",
                         field=field, value=value, expected=expected)

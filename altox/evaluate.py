@@ -1,0 +1,246 @@
+"""Evaluate a plan: expand it to a timeline, run the physiology chain once over people x samples, check the guidance.
+
+No printing here; :mod:`altox.render` and :mod:`altox.cli` present the result.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .chain import assess
+from .gas_exchange import inspired_po2
+from .atmosphere import barometric_pressure
+from .units import M_PER_FT
+
+#: rule sets applied when a plan names none (documented in docs/profiles.md)
+DEFAULT_RULES = {"expedition": ("wms-2024",), "flight": ("us-14cfr-91", "eu-nco")}
+REFERENCE_PERSON = {"name": "reference adult", "age_y": 40.0, "hemoglobin_g_dl": 14.5}
+
+#: per-sample and per-leg result keys taken from assess
+PHYSIOLOGY_KEYS = ("barometric_mmhg", "inspired_po2_mmhg", "alveolar_pco2_mmhg", "alveolar_po2_mmhg",
+                   "arterial_po2_mmhg", "arterial_ph", "sao2_pct", "o2_content_ml_dl")
+
+
+@dataclass
+class Person:
+    name: str
+    role: str
+    age_y: float
+    hemoglobin_g_dl: float
+    home_altitude_m: float = 0.0
+    history: tuple = ()
+    acetazolamide: bool = False
+
+
+@dataclass
+class PlanResult:
+    """Everything computed for one plan."""
+
+    name: str
+    kind: str
+    source: str | None
+    people: list[Person]
+    rule_sets: list[str]
+    legs: list[dict]
+    samples: dict                 # per-sample arrays of the reference person (plus timeline fields)
+    member_samples: dict          # name -> {'sao2_pct': array, ...}
+    members: list[dict]           # per-person summary
+    findings: list                # rules.checker.Finding
+    summary: dict
+    notes: list[str] = field(default_factory=list)
+
+
+def _people(plan) -> list[Person]:
+    default_hb = REFERENCE_PERSON["hemoglobin_g_dl"]
+    out = []
+    if plan.kind == "expedition":
+        for m in plan.party:
+            out.append(Person(m.name, m.role or "member", m.age_y if m.age_y is not None else 40.0,
+                              m.hemoglobin_g_dl or default_hb, m.home_altitude_m or 0.0,
+                              tuple(m.history), bool(m.acetazolamide)))
+    else:
+        for o in plan.aboard:
+            out.append(Person(o.name, o.role, o.age_y if o.age_y is not None else 40.0,
+                              o.hemoglobin_g_dl or default_hb))
+    return out
+
+
+def _rule_sets(plan):
+    from .rules import load_rule_set
+
+    ids = list(plan.rules) or list(DEFAULT_RULES[plan.kind])
+    sets = [load_rule_set(i) for i in ids]
+    if plan.rule_file_path is not None:
+        sets.append(load_rule_set(plan.rule_file_path))
+    return sets
+
+
+def _findings(plan, tl, rule_sets):
+    from .rules.checker import check_flight, check_itinerary
+    from .timeline import OXYGEN_NAMES
+
+    findings = []
+    if plan.kind == "flight":
+        use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in tl.oxygen])
+        for rs in rule_sets:
+            if rs.kind == "aviation":
+                findings += check_flight(tl.time_h, tl.duration_h, tl.cabin_pressure_altitude_ft, tl.leg, use, rs)
+    else:
+        day = np.array([d.day for d in plan.days])
+        sleep = np.array([d.sleep_m for d in plan.days])
+        high = np.array([d.high_m if d.high_m is not None else d.sleep_m for d in plan.days])
+        for rs in rule_sets:
+            if rs.kind == "expedition":
+                findings += check_itinerary(day, sleep, high, plan.start_altitude_m, rs)
+    return findings
+
+
+def evaluate_plan(plan, *, people_override=None) -> PlanResult:
+    """Evaluate a loaded plan (:func:`altox.profile.load_plan`).
+
+    The reference person and every member are evaluated together: one call of
+    :func:`altox.assess` over an array shaped (people, samples).  Expeditions carry
+    acclimatization along the timeline (:func:`altox.ventilation.acclimatization_history`),
+    starting from each person's home altitude; a flight is acute exposure.
+
+    Values are on air: planned supplemental oxygen is shown as a flag, and the physiology is
+    what a person would have without it (the case that matters when the oxygen fails).
+    """
+    from .timeline import expand
+    from .ventilation import acclimatization_history
+
+    tl = expand(plan)
+    people = people_override if people_override is not None else _people(plan)
+    everyone = [Person(REFERENCE_PERSON["name"], "reference", REFERENCE_PERSON["age_y"],
+                       REFERENCE_PERSON["hemoglobin_g_dl"])] + list(people)
+    n = len(tl)
+    ages = np.array([p.age_y for p in everyone])[:, None]
+    hbs = np.array([p.hemoglobin_g_dl for p in everyone])[:, None]
+    pb = np.broadcast_to(np.asarray(tl.pb_mmhg, dtype=float), (len(everyone), n))
+    if plan.kind == "expedition":
+        home_pb = np.array([float(barometric_pressure(min(max(p.home_altitude_m, -500.0), 9000.0), "mountain"))
+                            for p in everyone])
+        pio2 = np.asarray(inspired_po2(pb))
+        f_v, f_r = acclimatization_history(pio2, tl.duration_h, np.asarray(inspired_po2(home_pb)))
+    else:
+        f_v = f_r = np.zeros((len(everyone), n))
+    res = assess(np.broadcast_to(tl.altitude_m, (len(everyone), n)), pb_mmhg=pb,
+                 atmosphere="isa" if plan.kind == "flight" else "mountain",
+                 f_ventilatory=f_v, f_renal=f_r, age_y=ages, hb_g_dl=hbs)
+
+    dt = np.asarray(tl.duration_h, dtype=float)
+    floor = plan.dose_floor_m
+    dose_kmh = np.cumsum(np.maximum(tl.altitude_m - floor, 0.0) / 1000.0 * dt)
+    levels = sorted(plan.saturation_levels, reverse=True)
+    ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
+    below = {lvl: np.cumsum(dt * (ref["sao2_pct"] < 100 * lvl)) for lvl in levels}
+    findings = _findings(plan, tl, rule_sets := _rule_sets(plan))
+
+    legs = []
+    if plan.kind == "flight":
+        from .profile import flight_leg_altitudes
+
+        leg_altitudes = flight_leg_altitudes(plan.legs, plan.departure_elevation_m)
+    for i, label in enumerate(tl.leg_labels):
+        mask = tl.leg == i
+        if not mask.any():
+            continue
+        idx = np.flatnonzero(mask)
+        worst = idx[np.argmin(ref["sao2_pct"][idx])]
+        leg = {
+            "leg": i + 1,
+            "label": label,
+            "start_h": float(tl.time_h[idx[0]]),
+            "duration_h": float(dt[idx].sum()),
+            "max_altitude_m": float(tl.altitude_m[idx].max()),
+            "max_aircraft_altitude_m": float(tl.aircraft_altitude_m[idx].max()),
+            "max_cabin_pressure_altitude_ft": float(tl.cabin_pressure_altitude_ft[idx].max()),
+            "oxygen_planned": bool(np.any(tl.oxygen[idx] > 0)),
+        }
+        for k in PHYSIOLOGY_KEYS:
+            leg[k] = float(ref[k][worst])
+        leg["hypoxic_dose_kmh"] = float(dose_kmh[idx[-1]])
+        for lvl in levels:
+            leg[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][idx[-1]])
+        if plan.kind == "expedition":
+            d = plan.days[i]
+            leg["day"] = d.day
+            leg["sleep_altitude_m"] = float(d.sleep_m)
+            leg["high_altitude_m"] = float(d.high_m) if d.high_m is not None else None
+            leg["activity"] = d.activity
+        else:
+            start_m, end_m = leg_altitudes[i]
+            leg["phase"] = plan.legs[i].phase
+            leg["aircraft_pressure_altitude_ft"] = max(start_m, end_m) / M_PER_FT
+        leg["flags"] = []
+        legs.append(leg)
+
+    # attach findings to legs (expedition findings carry day numbers, flight findings leg indexes)
+    for k, f in enumerate(findings):
+        for ref_leg in f.legs:
+            for leg in legs:
+                hit = (leg.get("day") == ref_leg) if plan.kind == "expedition" else (leg["leg"] - 1 == ref_leg)
+                if hit:
+                    leg["flags"].append(k)
+
+    members = []
+    member_samples = {}
+    for j, p in enumerate(everyone[1:], start=1):
+        s = res["sao2_pct"][j]
+        entry = {"name": p.name, "role": p.role, "age_y": p.age_y, "hemoglobin_g_dl": p.hemoglobin_g_dl,
+                 "min_sao2_pct": float(s.min()), "min_sao2_leg": int(tl.leg[int(np.argmin(s))]) + 1,
+                 "min_o2_content_ml_dl": float(res["o2_content_ml_dl"][j].min())}
+        for lvl in levels:
+            entry[f"hours_below_{round(100 * lvl)}_pct"] = float(np.sum(dt * (s < 100 * lvl)))
+        if plan.kind == "expedition":
+            entry["history"] = list(p.history)
+            entry["acetazolamide"] = p.acetazolamide
+            entry.update(_risk(plan, p, rule_sets))
+        members.append(entry)
+        member_samples[p.name] = {k: res[k][j] for k in ("sao2_pct", "arterial_po2_mmhg", "o2_content_ml_dl")}
+
+    worst_leg = min(legs, key=lambda leg: leg["sao2_pct"])
+    broken = [f for f in findings if f.status in ("required-not-planned", "limit-exceeded")]
+    summary = {
+        "worst_leg": worst_leg["leg"], "worst_leg_label": worst_leg["label"],
+        "worst_sao2_pct": worst_leg["sao2_pct"],
+        "total_hours": float(dt.sum()),
+        "hypoxic_dose_kmh": float(dose_kmh[-1]), "dose_floor_m": float(floor),
+        "rules_broken": len(broken), "rules_touched": len(findings),
+    }
+    for lvl in levels:
+        summary[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][-1])
+    if plan.kind == "flight":
+        for threshold_ft in (10000.0, 12500.0, 14000.0, 15000.0):
+            summary[f"hours_cabin_above_{int(threshold_ft)}_ft"] = float(
+                np.sum(dt * (tl.cabin_pressure_altitude_ft > threshold_ft)))
+    samples = {"time_h": tl.time_h, "duration_h": dt, "leg": tl.leg + 1, "altitude_m": tl.altitude_m,
+               "aircraft_altitude_m": tl.aircraft_altitude_m, "sleeping": tl.sleeping,
+               "oxygen_code": tl.oxygen, "cabin_pressure_altitude_ft": tl.cabin_pressure_altitude_ft,
+               **ref, "hypoxic_dose_kmh": dose_kmh}
+    notes = ["Physiology on air for a resting reference adult (age 40, Hb 14.5 g/dL) unless a member is "
+             "named; planned supplemental oxygen is flagged, not applied.",
+             "Per-leg values are those of the worst sample (lowest SaO2) in the leg."]
+    if plan.kind == "expedition":
+        notes.append("Acclimatization carries across days from each person's home altitude; "
+                     "mountain model atmosphere unless a day says otherwise.")
+    else:
+        notes.append("A flight is acute exposure; cabin altitudes are pressure altitudes (ISA).")
+    return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
+                      samples, member_samples, members, findings, summary, notes)
+
+
+def _risk(plan, person, rule_sets):
+    from .rules.checker import risk_category
+
+    for rs in rule_sets:
+        if rs.kind == "expedition" and rs.risk_table is not None:
+            day = np.array([d.day for d in plan.days])
+            sleep = np.array([d.sleep_m for d in plan.days])
+            start = max(plan.start_altitude_m, person.home_altitude_m) if person.home_altitude_m else plan.start_altitude_m
+            category, reasons, prophylaxis = risk_category(set(person.history), day, sleep, start, rs)
+            return {"risk_category": category, "risk_reasons": reasons, "prophylaxis": prophylaxis,
+                    "risk_rule_set": rs.id}
+    return {}

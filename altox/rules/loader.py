@@ -1,0 +1,435 @@
+"""Load and validate guidance rule sets (YAML data files with their citations).
+
+Each rule set is one YAML file.  The shipped ones live in ``altox/data/rules/`` and are
+named by their ``id`` (``us-14cfr-91``, ``eu-nco``, ``wms-2024``, ...); a user may also
+pass the path of a rule file of their own, written in the same format (see docs/rules.md).
+
+Every threshold is written with its unit (``"12,500 ft"``, ``"700 hPa"``, ``"30 min"``,
+``"500 m"``) and carries the section it comes from and its ``basis``: ``read`` (the
+figure was read in a copy of the source, named in ``where``) or ``from memory``.
+
+Errors
+------
+* an unknown id raises :class:`altox.errors.AltoxError` naming the valid ids, with a
+  did-you-mean suggestion;
+* a rule file that cannot be parsed or does not follow the format raises
+  :class:`altox.errors.ProfileError` carrying the file, line and column of the fault.
+"""
+
+from __future__ import annotations
+
+import difflib
+import functools
+import math
+import re
+from importlib import resources
+from pathlib import Path
+from typing import Literal
+
+import yaml
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from ..errors import AltoxError, ProfileError
+from ..units import H_PER_DAY, parse_quantity
+
+Basis = Literal["read", "from memory"]
+AppliesTo = Literal["crew", "flight crew", "passengers", "all occupants", "party"]
+Quantity = Literal[
+    "cabin_pressure_altitude",        # ft (pressure altitude of the cabin)
+    "cabin_pressure",                 # hPa etc.; converted to ISA pressure altitude
+    "sleeping_altitude_gain_per_day",  # m per day
+    "rest_day_interval",              # days
+    "sleeping_gain_per_extra_day",    # m of gain per extra acclimatization day
+]
+Check = Literal["oxygen", "limit", "sleep_gain", "rest_interval", "rest_per_gain"]
+Category = Literal["low", "moderate", "high"]
+Criterion = Literal[
+    "no_history_max_sleep_at_most", "gradual", "ams_day1_between", "no_ams_day1_above",
+    "fast_gain_with_extra_days", "ams_day1_at_least", "hape_or_hace", "day1_above",
+    "fast_gain_without_extra_days", "history_ams", "day1_at_least",
+]
+
+#: unit kind (for :func:`altox.units.parse_quantity`) of each quantity
+QUANTITY_KIND = {
+    "cabin_pressure_altitude": "length",
+    "cabin_pressure": "pressure",
+    "sleeping_altitude_gain_per_day": "length",
+    "rest_day_interval": "duration",
+    "sleeping_gain_per_extra_day": "length",
+}
+#: the checks each quantity may drive
+QUANTITY_CHECKS = {
+    "cabin_pressure_altitude": {"oxygen", "limit"},
+    "cabin_pressure": {"oxygen", "limit"},
+    "sleeping_altitude_gain_per_day": {"sleep_gain"},
+    "rest_day_interval": {"rest_interval"},
+    "sleeping_gain_per_extra_day": {"rest_per_gain"},
+}
+AVIATION_CHECKS = {"oxygen", "limit"}
+EXPEDITION_CHECKS = {"sleep_gain", "rest_interval", "rest_per_gain"}
+#: criteria of the risk table that need a ``value`` (and ``band_top``)
+CRITERIA_WITH_VALUE = {
+    "no_history_max_sleep_at_most", "gradual", "ams_day1_between", "no_ams_day1_above",
+    "fast_gain_with_extra_days", "ams_day1_at_least", "day1_above",
+    "fast_gain_without_extra_days", "day1_at_least",
+}
+CRITERIA_WITH_BAND = {"ams_day1_between"}
+
+_UNIT_RE = re.compile(r"[A-Za-z']+\s*$")
+_DURATION_RE = re.compile(r"^\s*more than\s+(?P<q>.+)$", re.IGNORECASE)
+_ID_RE = r"^[a-z0-9][a-z0-9.-]*$"
+_FT_PER_M = 1.0 / 0.3048
+
+
+def _altitude_ft(text: str, quantity: str, field: str) -> float:
+    """Threshold altitude in feet: lengths directly; pressures as ISA pressure altitude."""
+    kind = QUANTITY_KIND[quantity]
+    inside = parse_quantity(text, kind, field=field)
+    if kind == "length":
+        return round(inside * _FT_PER_M, 6)  # '13,000 ft' must stay exactly 13,000 ft
+    from ..atmosphere import pressure_altitude_ft  # lazy: keeps ambiance off the import path
+    return float(pressure_altitude_ft(inside))
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", str_strip_whitespace=True)
+
+
+class Threshold(_Strict):
+    """One figure of a rule set, with the words of the rule and where it was read."""
+
+    id: str = Field(pattern=_ID_RE)
+    applies_to: AppliesTo
+    quantity: Quantity
+    check: Check
+    value: str
+    band_top: str | None = None
+    above: str | None = None
+    duration: str | None = None
+    condition: str | None = None
+    requirement: str = Field(min_length=1)
+    section: str = Field(min_length=1)
+    basis: Basis
+    where: str = Field(min_length=1)
+    note: str | None = None
+    citation: str | None = None  # filled from the rule set when not given
+
+    # -- derived (set by the validators) -----------------------------------------------
+    @property
+    def unit(self) -> str:
+        """The unit as written in ``value`` (``"ft"``, ``"hPa"``, ``"m"``, ``"days"``)."""
+        match = _UNIT_RE.search(self.value)
+        return match.group(0).strip() if match else ""
+
+    @field_validator("value", "band_top", "above")
+    @classmethod
+    def _parses(cls, text, info):
+        if text is None:
+            return text
+        quantity = info.data.get("quantity")
+        if quantity is None:  # quantity itself was invalid; reported separately
+            return text
+        kind = "length" if info.field_name == "above" else QUANTITY_KIND[quantity]
+        if not isinstance(text, str):
+            raise ValueError(f"write {info.field_name} with its unit, e.g. '12,500 ft' or '500 m'")
+        number = parse_quantity(text, kind, field=info.field_name)
+        if not math.isfinite(number) or number < 0:
+            raise ValueError(f"{text!r} must be a finite, non-negative {kind}")
+        return text
+
+    @field_validator("duration")
+    @classmethod
+    def _duration(cls, text):
+        if text is None:
+            return text
+        match = _DURATION_RE.match(text)
+        if not match:
+            raise ValueError(f"duration {text!r} must read 'more than <time>', e.g. 'more than 30 min'")
+        parse_quantity(match.group("q"), "duration", field="duration")
+        return text
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        if self.check not in QUANTITY_CHECKS[self.quantity]:
+            raise ValueError(f"check {self.check!r} does not fit quantity {self.quantity!r}; "
+                             f"expected one of {sorted(QUANTITY_CHECKS[self.quantity])}")
+        if self.band_top is not None:
+            if self.check != "oxygen":
+                raise ValueError("band_top is only meaningful for an 'oxygen' check")
+            if self.top_ft <= self.lower_ft:
+                raise ValueError(f"band_top {self.band_top!r} must lie above value {self.value!r}")
+        if self.check in EXPEDITION_CHECKS and self.above is None:
+            raise ValueError("an expedition threshold needs 'above' (the altitude it applies above)")
+        if self.check in AVIATION_CHECKS and self.above is not None:
+            raise ValueError("'above' is for expedition thresholds; use 'value' for aviation")
+        return self
+
+    # -- values in the checker's units ---------------------------------------------------
+    @property
+    def lower_ft(self) -> float:
+        """Aviation: the cabin pressure altitude [ft] above which the threshold applies."""
+        return _altitude_ft(self.value, self.quantity, "value")
+
+    @property
+    def top_ft(self) -> float | None:
+        """Aviation: the top of the band [ft], 'up to and including'; None for no top."""
+        return None if self.band_top is None else _altitude_ft(self.band_top, self.quantity, "band_top")
+
+    @property
+    def duration_h(self) -> float | None:
+        """The 'more than' duration [h], or None."""
+        if self.duration is None:
+            return None
+        return parse_quantity(_DURATION_RE.match(self.duration).group("q"), "duration")
+
+    @property
+    def value_inside(self) -> float:
+        """``value`` in altox's inside unit: m for lengths, mmHg for pressures, h for durations."""
+        return parse_quantity(self.value, QUANTITY_KIND[self.quantity])
+
+    @property
+    def value_days(self) -> float:
+        """``value`` in days (for ``rest_day_interval``)."""
+        return self.value_inside / H_PER_DAY
+
+    @property
+    def above_m(self) -> float | None:
+        """Expedition: the sleeping altitude [m] above which the threshold applies."""
+        return None if self.above is None else parse_quantity(self.above, "length")
+
+
+class NotEncoded(_Strict):
+    """A provision of the source that altox deliberately does not check, and why."""
+
+    section: str
+    reason: str
+    basis: Basis
+    where: str
+
+
+class RiskRow(_Strict):
+    """One row (or cell) of a risk-category table."""
+
+    category: Category
+    criterion: Criterion
+    value: str | None = None
+    band_top: str | None = None
+    text: str = Field(min_length=1)
+
+    @field_validator("value", "band_top")
+    @classmethod
+    def _length(cls, text, info):
+        if text is not None:
+            parse_quantity(text, "length", field=info.field_name)
+        return text
+
+    @model_validator(mode="after")
+    def _needs(self):
+        if self.criterion in CRITERIA_WITH_VALUE and self.value is None:
+            raise ValueError(f"criterion {self.criterion!r} needs a value, e.g. '2,800 m'")
+        if self.criterion in CRITERIA_WITH_BAND and self.band_top is None:
+            raise ValueError(f"criterion {self.criterion!r} needs band_top, e.g. '2,800 m'")
+        return self
+
+    @property
+    def value_m(self) -> float | None:
+        return None if self.value is None else parse_quantity(self.value, "length")
+
+    @property
+    def top_m(self) -> float | None:
+        return None if self.band_top is None else parse_quantity(self.band_top, "length")
+
+
+class RiskTable(_Strict):
+    section: str
+    basis: Basis
+    where: str
+    notes: list[str] = []
+    rows: list[RiskRow] = Field(min_length=1)
+    not_encoded: list[str] = []
+
+
+class Dose(_Strict):
+    text: str = Field(min_length=1)
+    basis: Basis
+    where: str
+
+
+class ProphylaxisText(_Strict):
+    text: str = Field(min_length=1)
+    basis: Basis
+    where: str
+    dose: Dose | None = None
+
+
+class Prophylaxis(_Strict):
+    low: ProphylaxisText
+    moderate: ProphylaxisText
+    high: ProphylaxisText
+    hape: ProphylaxisText | None = None
+
+
+class RuleSet(_Strict):
+    """A published rule or guideline, transcribed as data with its citation."""
+
+    id: str = Field(pattern=_ID_RE)
+    title: str = Field(min_length=1)
+    label: str = Field(min_length=1)  # short name used in messages: "14 CFR", "WMS 2019"
+    jurisdiction: str = Field(min_length=1)
+    kind: Literal["aviation", "expedition"]
+    edition: str = Field(min_length=1)
+    effective: str = Field(min_length=1)
+    citation: str = Field(min_length=1)
+    url: str | None = None
+    caution: str = Field(min_length=1)
+    thresholds: list[Threshold] = Field(min_length=1)
+    not_encoded: list[NotEncoded] = []
+    risk_table: RiskTable | None = None
+    prophylaxis: Prophylaxis | None = None
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        seen = set()
+        allowed = AVIATION_CHECKS if self.kind == "aviation" else EXPEDITION_CHECKS
+        for i, th in enumerate(self.thresholds):
+            if th.id in seen:
+                raise ValueError(f"thresholds[{i}]: duplicate threshold id {th.id!r}")
+            seen.add(th.id)
+            if th.check not in allowed:
+                raise ValueError(f"thresholds[{i}] ({th.id}): check {th.check!r} does not belong in a "
+                                 f"{self.kind} rule set; expected one of {sorted(allowed)}")
+            if th.citation is None:
+                th.citation = self.citation
+        if self.kind == "aviation" and (self.risk_table or self.prophylaxis):
+            raise ValueError("risk_table and prophylaxis belong to expedition rule sets")
+        if self.risk_table is not None and self.prophylaxis is None:
+            raise ValueError("a rule set with a risk_table also needs prophylaxis texts "
+                             "for low, moderate and high")
+        return self
+
+    def threshold(self, threshold_id: str) -> Threshold:
+        """The threshold with this id (AltoxError listing the valid ones otherwise)."""
+        for th in self.thresholds:
+            if th.id == threshold_id:
+                return th
+        ids = [th.id for th in self.thresholds]
+        raise AltoxError(f"rule set {self.id!r} has no threshold {threshold_id!r}; "
+                         f"valid: {', '.join(ids)}", field="threshold", value=threshold_id,
+                         expected=", ".join(ids))
+
+    def thresholds_by_check(self, check: str) -> list[Threshold]:
+        return [th for th in self.thresholds if th.check == check]
+
+
+# -- files ----------------------------------------------------------------------------------
+def _rules_dir():
+    return resources.files("altox").joinpath("data", "rules")
+
+
+def available_rule_sets() -> list[str]:
+    """Ids of the rule sets shipped with altox, sorted."""
+    return sorted(entry.name[:-5] for entry in _rules_dir().iterdir()
+                  if entry.name.endswith(".yaml"))
+
+
+def _node_at(node, loc):
+    """The YAML node at a pydantic error location, or the deepest one found on the way."""
+    for key in loc:
+        if isinstance(node, yaml.MappingNode):
+            nxt = next((v for k, v in node.value if getattr(k, "value", None) == key), None)
+        elif isinstance(node, yaml.SequenceNode) and isinstance(key, int) and key < len(node.value):
+            nxt = node.value[key]
+        else:
+            nxt = None
+        if nxt is None:
+            break
+        node = nxt
+    return node
+
+
+def _field_name(loc) -> str:
+    out = ""
+    for key in loc:
+        out += f"[{key}]" if isinstance(key, int) else (f".{key}" if out else str(key))
+    return out
+
+
+def _parse(text: str, path: str) -> RuleSet:
+    try:
+        root = yaml.compose(text, Loader=yaml.SafeLoader)
+        data = yaml.safe_load(text)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        line = mark.line + 1 if mark else None
+        col = mark.column + 1 if mark else None
+        where = f"{path}:{line}" if line else path
+        raise ProfileError(f"{where}: not valid YAML ({getattr(exc, 'problem', None) or exc})",
+                           path=path, line=line, column=col) from None
+    if not isinstance(data, dict):
+        raise ProfileError(f"{path}: a rule file must be a YAML mapping with id, title, kind, "
+                           f"citation, caution and thresholds", path=path, line=1,
+                           expected="a mapping")
+    try:
+        return RuleSet.model_validate(data)
+    except ValidationError as exc:
+        problems = []
+        first = None
+        for err in exc.errors(include_url=False):
+            loc = tuple(k for k in err["loc"] if k not in ("function-after",))
+            node = _node_at(root, loc)
+            line, col = node.start_mark.line + 1, node.start_mark.column + 1
+            msg = err["msg"].removeprefix("Value error, ")
+            field = _field_name(loc) or "<file>"
+            problems.append(f"{path}:{line}: {field}: {msg}")
+            if first is None:
+                first = (line, col, field, err.get("input"))
+        line, col, field, value = first
+        raise ProfileError("; ".join(problems), path=path, line=line, column=col, field=field,
+                           value=value) from None
+
+
+@functools.lru_cache(maxsize=None)
+def _load_builtin(rule_id: str) -> RuleSet:
+    entry = _rules_dir().joinpath(f"{rule_id}.yaml")
+    rs = _parse(entry.read_text(encoding="utf-8"), f"altox/data/rules/{rule_id}.yaml")
+    if rs.id != rule_id:
+        raise ProfileError(f"altox/data/rules/{rule_id}.yaml: id {rs.id!r} does not match the file name",
+                           path=f"altox/data/rules/{rule_id}.yaml", field="id", value=rs.id)
+    return rs
+
+
+def load_rule_set(id_or_path) -> RuleSet:
+    """Load a shipped rule set by id, or a user's rule file by path.
+
+    Parameters
+    ----------
+    id_or_path : str or os.PathLike
+        A shipped id (see :func:`available_rule_sets`) or the path of a ``.yaml`` file.
+
+    Raises
+    ------
+    AltoxError
+        Unknown id (the message lists the valid ids and the closest match).
+    ProfileError
+        A rule file that cannot be read, parsed or validated (with file:line).
+    """
+    if isinstance(id_or_path, RuleSet):
+        return id_or_path
+    text = str(id_or_path)
+    looks_like_path = (isinstance(id_or_path, Path) or text.endswith((".yaml", ".yml"))
+                       or "/" in text or "\\" in text)
+    if not looks_like_path:
+        valid = available_rule_sets()
+        if text in valid:
+            return _load_builtin(text)
+        close = difflib.get_close_matches(text, valid, n=1, cutoff=0.5)
+        hint = f" Did you mean {close[0]!r}?" if close else ""
+        raise AltoxError(f"unknown rule set {text!r}.{hint} Valid rule sets: {', '.join(valid)}; "
+                         f"or give the path of a .yaml rule file.",
+                         field="rule_set", value=text, expected=", ".join(valid))
+    path = Path(text)
+    try:
+        content = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise ProfileError(f"{text}: cannot read rule file ({exc.strerror or exc})", path=text) from None
+    return _parse(content, text)

@@ -1,0 +1,81 @@
+"""`altox plan`, `altox check` and `altox schema` driven as real commands."""
+
+import csv
+import io
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMOS = sorted((ROOT / "profiles").glob("*.yaml"))
+ENV = {**os.environ, "COLUMNS": "80", "NO_COLOR": "1"}
+
+
+def run(*args):
+    return subprocess.run([sys.executable, "-m", "altox", *args], capture_output=True, text=True,
+                          env=ENV, timeout=120, cwd=ROOT)
+
+
+@pytest.mark.parametrize("demo", DEMOS, ids=[d.stem for d in DEMOS])
+def test_plan_demo_tables(demo):
+    proc = run("plan", str(demo))
+    assert proc.returncode == 0, proc.stderr
+    out = proc.stdout
+    assert "GUIDANCE ONLY" in out and "SaO2 %" in out and "PIO2" in out
+    assert max(len(line) for line in out.splitlines()) <= 80
+
+
+def test_plan_json_matches_library():
+    from altox.evaluate import evaluate_plan
+    from altox.profile import load_plan
+
+    demo = ROOT / "profiles" / "trek-kharsang-fast.yaml"
+    data = json.loads(run("plan", str(demo), "--json").stdout)
+    lib = evaluate_plan(load_plan(demo))
+    assert [leg["sao2_pct"] for leg in data["legs"]] == pytest.approx([leg["sao2_pct"] for leg in lib.legs], abs=1e-6)
+    assert data["caution"].startswith("GUIDANCE ONLY")
+    assert data["summary"]["rules_broken"] >= 1
+    assert any(leg["flags"] for leg in data["legs"])
+
+
+def test_plan_csv_and_timeline():
+    demo = str(ROOT / "profiles" / "piston-ridge-crossing.yaml")
+    legs = list(csv.DictReader(io.StringIO(run("plan", demo, "--csv").stdout)))
+    samples = list(csv.DictReader(io.StringIO(run("plan", demo, "--csv", "--timeline").stdout)))
+    assert len(legs) == 7 and len(samples) > len(legs)
+    assert {"sao2_pct", "arterial_po2_mmhg", "hypoxic_dose_kmh", "flags"} <= set(legs[0])
+    timeline = json.loads(run("plan", demo, "--json", "--timeline").stdout)["timeline"]
+    assert len(timeline) == len(samples)
+
+
+def test_plan_several_files_reports_failures(tmp_path):
+    bad = tmp_path / "bad.yaml"
+    bad.write_text("kind: expedition\nname: x\nstart_altitude: 1000 m\ndays:\n  - {day: 1, sleep: 3000}\n")
+    before = bad.read_bytes()
+    good = str(ROOT / "profiles" / "trek-kharsang.yaml")
+    proc = run("plan", good, str(bad), "--json")
+    assert proc.returncode == 2
+    assert "bad.yaml" in proc.stderr and "1 of 2" in proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert json.loads(proc.stdout)[0]["plan"]
+    assert bad.read_bytes() == before
+
+
+def test_check_and_schema():
+    proc = run("check", *map(str, DEMOS))
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.count("ok:") == len(DEMOS)
+    schema = json.loads(run("schema").stdout)
+    assert "expedition" in json.dumps(schema) and "flight" in json.dumps(schema)
+
+
+def test_rules_option_replaces_plan_rules():
+    demo = str(ROOT / "profiles" / "piston-ridge-crossing.yaml")
+    data = json.loads(run("plan", demo, "--json", "--rules", "eu-nco").stdout)
+    assert data["rule_sets"] == ["eu-nco"]
+    proc = run("plan", demo, "--rules", "no-such-rules")
+    assert proc.returncode == 2 and "no-such-rules" in proc.stderr
