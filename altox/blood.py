@@ -21,6 +21,8 @@ _SEV_B = 150.0
 STANDARD_PH = 7.40
 STANDARD_PCO2_MMHG = 40.0
 STANDARD_TEMP_C = 37.0
+# P50 of the standard curve equation (the published standard value is 26.8 mmHg)
+STANDARD_P50_MMHG = 26.856800143073972
 # Henderson-Hasselbalch for plasma bicarbonate: pK' 6.1, CO2 solubility 0.0307 mmol/L/mmHg
 PK_CARBONIC = 6.1
 CO2_SOLUBILITY_MMOL_L_MMHG = 0.0307
@@ -38,7 +40,8 @@ def _out(result, *inputs):
     return np.asarray(result, dtype=float)
 
 
-def virtual_po2(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=STANDARD_TEMP_C):
+def virtual_po2(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=STANDARD_TEMP_C,
+                p50_mmhg=None):
     """PO2 that gives the same saturation on the standard curve (Severinghaus 1979).
 
     ``PO2v = PO2 * 10**(0.024 (37 - T) + 0.40 (pH - 7.40) + 0.06 log10(40 / PCO2))``
@@ -56,6 +59,10 @@ def virtual_po2(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=S
         Blood PCO2, > 0. [mmHg]
     temp_c : numeric
         Blood temperature. [degC]
+    p50_mmhg : numeric, optional
+        A person's standard P50 (pH 7.40, PCO2 40, 37 degC), when it differs from the
+        curve's 26.86 mmHg (variation between people, 2,3-DPG); the curve is scaled along
+        the PO2 axis, as the virtual-PO2 corrections are.
 
     Returns
     -------
@@ -66,7 +73,9 @@ def virtual_po2(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=S
     log_factor = (0.024 * (STANDARD_TEMP_C - np.asarray(temp_c, dtype=float))
                   + 0.40 * (np.asarray(ph, dtype=float) - STANDARD_PH)
                   + 0.06 * np.log10(STANDARD_PCO2_MMHG / np.asarray(pco2_mmhg, dtype=float)))
-    return _out(po2 * 10.0**log_factor, po2_mmhg, ph, pco2_mmhg, temp_c)
+    scale = 1.0 if p50_mmhg is None else STANDARD_P50_MMHG / np.asarray(p50_mmhg, dtype=float)
+    return _out(po2 * 10.0**log_factor * scale, po2_mmhg, ph, pco2_mmhg, temp_c,
+                0.0 if p50_mmhg is None else p50_mmhg)
 
 
 def standard_saturation(po2_mmhg):
@@ -87,7 +96,7 @@ def standard_saturation(po2_mmhg):
     return _out(s, po2_mmhg)
 
 
-def saturation(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=STANDARD_TEMP_C):
+def saturation(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=STANDARD_TEMP_C, p50_mmhg=None):
     """Hemoglobin O2 saturation for a PO2 under stated pH, PCO2 and temperature.
 
     The standard curve of Severinghaus (1979) evaluated at the virtual PO2
@@ -116,7 +125,7 @@ def saturation(po2_mmhg, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=ST
     >>> saturation(40.0, ph=7.55, pco2_mmhg=20.0) > saturation(40.0)
     True
     """
-    return standard_saturation(virtual_po2(po2_mmhg, ph, pco2_mmhg, temp_c))
+    return standard_saturation(virtual_po2(po2_mmhg, ph, pco2_mmhg, temp_c, p50_mmhg))
 
 
 def standard_po2_for_saturation(so2):
@@ -133,7 +142,8 @@ def standard_po2_for_saturation(so2):
     return _out(po2, so2)
 
 
-def po2_for_saturation(so2, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=STANDARD_TEMP_C):
+def po2_for_saturation(so2, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c=STANDARD_TEMP_C,
+                       p50_mmhg=None):
     """PO2 that gives a saturation under stated pH, PCO2 and temperature. [mmHg]
 
     Inverse of :func:`saturation`: the standard-curve PO2 divided by the virtual-PO2 factor.
@@ -144,7 +154,7 @@ def po2_for_saturation(so2, ph=STANDARD_PH, pco2_mmhg=STANDARD_PCO2_MMHG, temp_c
         Saturation as a fraction in [0, 1).
     """
     standard = np.asarray(standard_po2_for_saturation(so2))
-    factor = np.asarray(virtual_po2(1.0, ph, pco2_mmhg, temp_c))
+    factor = np.asarray(virtual_po2(1.0, ph, pco2_mmhg, temp_c, p50_mmhg))
     return _out(standard / factor, so2, ph, pco2_mmhg, temp_c)
 
 

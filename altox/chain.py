@@ -30,7 +30,8 @@ def _model_range(atmosphere):
 def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_exchange.AIR_FIO2,
            days=0.0, f_ventilatory=None, f_renal=None, age_y=40.0, hb_g_dl=None,
            rq=gas_exchange.DEFAULT_RQ, body_temp_c=37.0, paco2_mmhg=None, ph=None,
-           metabolic_ratio=1.0):
+           metabolic_ratio=1.0, hypoxic_gain_scale=1.0, drive_scale=1.0, hco3_offset_mmol_l=0.0,
+           shunt_fraction=None, p50_mmhg=None):
     """Evaluate the whole resting physiology chain at arrays of altitudes.
 
     Parameters
@@ -63,6 +64,16 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
         Measured arterial pH. Replaces the acid-base model (bicarbonate is derived).
     metabolic_ratio : numeric
         CO2 output relative to rest.
+    hypoxic_gain_scale : numeric
+        The person's hypoxic ventilatory response relative to the population's (1 typical).
+    drive_scale : numeric
+        Overall chemoreflex drive relative to awake rest (sleep is below 1).
+    hco3_offset_mmol_l : numeric
+        Metabolic shift of bicarbonate (negative with acetazolamide). [mmol/L]
+    shunt_fraction : numeric, optional
+        Venous admixture; default from age (:func:`altox.gas_exchange.shunt_fraction_for_age`).
+    p50_mmhg : numeric, optional
+        The person's standard P50; default the standard curve's 26.8 mmHg. [mmHg]
 
     Returns
     -------
@@ -131,7 +142,9 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
     pio2 = np.asarray(gas_exchange.inspired_po2(pb, fio2_a, body_temp_c))
     factor = gas_exchange.alveolar_gas_factor(fio2_a, rq)
     if paco2_mmhg is None:
-        eq = ventilation.equilibrium(pio2, fio2_a, rq, fv, fr, metabolic_ratio)
+        eq = ventilation.equilibrium(pio2, fio2_a, rq, fv, fr, metabolic_ratio,
+                                     hypoxic_gain_scale=hypoxic_gain_scale, drive_scale=drive_scale,
+                                     hco3_offset_mmol_l=hco3_offset_mmol_l)
         paco2 = eq["paco2_mmhg"]
         vent_ratio = eq["ventilation_ratio"]
         hco3 = eq["hco3_mmol_l"]
@@ -142,7 +155,7 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
         if np.any(~np.isfinite(paco2) | (paco2 <= 0.0)):
             raise OutOfRangeError("PaCO2 must be a positive number of mmHg", field="paco2", expected="> 0 mmHg")
         vent_ratio = ventilation.default_parameters().baseline_paco2_mmhg * np.asarray(metabolic_ratio) / paco2
-        hco3 = blood.compensated_bicarbonate(paco2, fr)
+        hco3 = np.asarray(blood.compensated_bicarbonate(paco2, fr)) + np.asarray(hco3_offset_mmol_l, dtype=float)
         ph_a = blood.ph_from_bicarbonate(hco3, paco2)
         converged = np.ones(np.shape(paco2), dtype=bool)
     if ph is not None:
@@ -154,9 +167,9 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
     pao2_raw = pio2 - paco2 * factor
     clamped = pao2_raw < 0.0
     pao2 = np.maximum(pao2_raw, 0.0)
-    qs = gas_exchange.shunt_fraction_for_age(age_y)
-    pao2_art = np.asarray(gas_exchange.arterial_po2(pao2, hb, qs, ph_a, paco2, body_temp_c))
-    sao2 = np.asarray(blood.saturation(pao2_art, ph_a, paco2, body_temp_c))
+    qs = gas_exchange.shunt_fraction_for_age(age_y) if shunt_fraction is None else shunt_fraction
+    pao2_art = np.asarray(gas_exchange.arterial_po2(pao2, hb, qs, ph_a, paco2, body_temp_c, p50_mmhg=p50_mmhg))
+    sao2 = np.asarray(blood.saturation(pao2_art, ph_a, paco2, body_temp_c, p50_mmhg))
     content = np.asarray(blood.oxygen_content(hb, sao2, pao2_art))
 
     # equivalent altitude: ambient air with the same PIO2, in the same atmosphere (ISA when measured)

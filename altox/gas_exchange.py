@@ -172,9 +172,9 @@ def sea_level_aado2(age_y):
     return _out(2.5 + 0.21 * np.asarray(age_y, dtype=float), age_y)
 
 
-def _po2_for_content(content_ml_dl, hb_g_dl, ph, pco2_mmhg, temp_c, upper_mmhg):
+def _po2_for_content(content_ml_dl, hb_g_dl, ph, pco2_mmhg, temp_c, upper_mmhg, p50_mmhg=None):
     """PO2 whose total content (bound + dissolved) equals ``content``; safeguarded Newton."""
-    factor = np.asarray(blood.virtual_po2(1.0, ph, pco2_mmhg, temp_c))
+    factor = np.asarray(blood.virtual_po2(1.0, ph, pco2_mmhg, temp_c, p50_mmhg))
     cap = blood.HUEFNER_ML_PER_G * hb_g_dl
     lo = np.zeros_like(content_ml_dl)
     hi = np.maximum(np.asarray(upper_mmhg, dtype=float), 1e-6) + np.zeros_like(content_ml_dl)
@@ -198,7 +198,7 @@ def _po2_for_content(content_ml_dl, hb_g_dl, ph, pco2_mmhg, temp_c, upper_mmhg):
 def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmhg=40.0,
                  temp_c=37.0, dlo2_ml_min_mmhg=REST_DLO2_ML_MIN_MMHG,
                  cardiac_output_ml_min=REST_CARDIAC_OUTPUT_ML_MIN,
-                 av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL):
+                 av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL, p50_mmhg=None):
     """Arterial PO2 from alveolar PO2: diffusion limitation, then venous admixture.
 
     Two mechanisms open the alveolar-arterial difference, and both are computed from the
@@ -229,6 +229,8 @@ def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmh
         [mL/min]
     av_difference_ml_dl : numeric
         Arterial minus mixed-venous O2 content. [mL/dL]
+    p50_mmhg : numeric, optional
+        The person's standard P50 (see :func:`altox.blood.virtual_po2`). [mmHg]
 
     Returns
     -------
@@ -239,24 +241,25 @@ def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmh
     hb = np.asarray(hb_g_dl, dtype=float)
     cap = blood.HUEFNER_ML_PER_G * hb
     sol = blood.O2_SOLUBILITY_ML_DL_MMHG
-    s_alv = np.asarray(blood.saturation(pa, ph, pco2_mmhg, temp_c))
+    s_alv = np.asarray(blood.saturation(pa, ph, pco2_mmhg, temp_c, p50_mmhg))
     c_alv = cap * s_alv + sol * pa
     avd = np.asarray(av_difference_ml_dl, dtype=float)
     # mixed venous, from blood equilibrated with alveolar gas (first pass)
     s_ven = np.clip((c_alv - avd) / cap, 1e-4, 0.999)
-    pv = np.minimum(np.asarray(blood.po2_for_saturation(s_ven, ph, pco2_mmhg, temp_c)), pa)
+    pv = np.minimum(np.asarray(blood.po2_for_saturation(s_ven, ph, pco2_mmhg, temp_c, p50_mmhg)), pa)
     gap = np.maximum(pa - pv, 1e-9)
     beta_ml_ml = (cap * (s_alv - s_ven) / gap + sol) / 100.0
     ratio = np.asarray(dlo2_ml_min_mmhg, dtype=float) / (beta_ml_ml * np.asarray(cardiac_output_ml_min))
     p_end = pa - (pa - pv) * np.exp(-ratio)
-    s_end = np.asarray(blood.saturation(p_end, ph, pco2_mmhg, temp_c))
+    s_end = np.asarray(blood.saturation(p_end, ph, pco2_mmhg, temp_c, p50_mmhg))
     c_end = cap * s_end + sol * p_end
     qs = np.asarray(shunt_fraction, dtype=float)
     c_art = c_end - qs * avd / (1.0 - qs)
     shape = np.broadcast(pa, hb, qs, np.asarray(ph), np.asarray(pco2_mmhg), np.asarray(temp_c)).shape
     pao2_art = _po2_for_content(np.broadcast_to(c_art, shape).astype(float), np.broadcast_to(hb, shape),
                                 np.broadcast_to(ph, shape), np.broadcast_to(pco2_mmhg, shape),
-                                np.broadcast_to(temp_c, shape), np.broadcast_to(p_end, shape))
+                                np.broadcast_to(temp_c, shape), np.broadcast_to(p_end, shape),
+                                None if p50_mmhg is None else np.broadcast_to(p50_mmhg, shape))
     return _out(pao2_art, pao2_mmhg, hb_g_dl, shunt_fraction, ph, pco2_mmhg, temp_c)
 
 
