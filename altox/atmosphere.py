@@ -4,8 +4,10 @@ Two models, chosen by name (an unknown name raises a ``ValueError`` listing the 
 
 ``"isa"``
     ICAO Standard Atmosphere (Doc 7488/3, 1993), identical to the U.S. Standard Atmosphere
-    1976 below 32 km, computed by the ``ambiance`` package [ICAO1993]_.  Input is *geometric*
-    altitude.  Aviation's pressure altitude is, by definition, the ISA altitude of the
+    1976 below 32 km, as the ``ambiance`` package defines it [ICAO1993]_: altox evaluates
+    ambiance's layer formulas with ambiance's own constants in closed form, forward and
+    inverse, and a test holds the result to ambiance itself within 1e-9 over ambiance's
+    whole range (-5,004 to 81,020 m).  Input is *geometric* altitude.  Aviation's pressure altitude is, by definition, the ISA altitude of the
     ambient pressure; altox reads flight levels and cabin altitudes as pressure altitudes
     and converts them with :func:`altitude_for_pressure`.
 ``"mountain"``
@@ -77,6 +79,60 @@ def _shape_like(result, template):
     return float(result) if result.ndim == 0 else result
 
 
+_ISA_TABLE = None
+
+
+def _isa_layers():
+    """Layer table of the standard atmosphere, taken from ambiance's own constants (so ambiance stays
+    the reference): geopotential base [m], base temperature [K], lapse rate [K/m], base pressure [Pa]."""
+    global _ISA_TABLE
+    if _ISA_TABLE is None:
+        from ambiance.ambiance import CONST
+
+        spec = CONST.LAYER_SPEC_PROP
+        h_base = np.array([row[0] for row in spec], dtype=float)
+        t_base = np.array([row[1] for row in spec], dtype=float)
+        beta = np.array([row[2] for row in spec], dtype=float)
+        p_base = np.array([row[3] for row in spec], dtype=float)
+        _ISA_TABLE = (h_base, t_base, beta, p_base, float(CONST.g_0), float(CONST.R), float(CONST.r))
+    return _ISA_TABLE
+
+
+def isa_pressure_pa(altitude_m):
+    """ISA pressure at geometric altitude: the layer formulas that ``ambiance`` evaluates, in closed form.
+
+    ``H = r h / (r + h)``; in a layer with lapse ``beta``:
+    ``p = p_b (1 + beta/T_b (H - H_b))^(-g0 / (R beta))``, isothermal: ``p = p_b exp(-g0 (H - H_b) / (R T_b))``.
+    Layer constants are ambiance's; a test holds this to ambiance within 1e-9 relative over its
+    whole range. No range check here (see :func:`barometric_pressure`). [Pa]
+    """
+    h_base, t_base, beta, p_base, g0, r_gas, r_earth = _isa_layers()
+    h = np.asarray(altitude_m, dtype=float)
+    geop = r_earth * h / (r_earth + h)
+    i = np.clip(np.searchsorted(h_base, geop, side="right") - 1, 0, h_base.size - 2)
+    hb, tb, b, pb = h_base[i], t_base[i], beta[i], p_base[i]
+    dh = geop - hb
+    safe_b = np.where(b != 0.0, b, 1.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        grad = pb * (1.0 + (b / tb) * dh) ** (-g0 / (r_gas * safe_b))
+    iso = pb * np.exp(-g0 * dh / (r_gas * tb))
+    return np.where(b != 0.0, grad, iso)
+
+
+def isa_altitude_for_pressure_m(p_pa):
+    """Inverse of :func:`isa_pressure_pa` in closed form: geometric altitude of an ISA pressure. [m]"""
+    h_base, t_base, beta, p_base, g0, r_gas, r_earth = _isa_layers()
+    p = np.asarray(p_pa, dtype=float)
+    # base pressures fall with height: layer i holds p_base[i+1] < p <= p_base[i]
+    i = np.clip(np.searchsorted(-p_base, -p, side="right") - 1, 0, h_base.size - 2)
+    hb, tb, b, pb = h_base[i], t_base[i], beta[i], p_base[i]
+    safe_b = np.where(b != 0.0, b, 1.0)
+    grad = hb + (tb / safe_b) * ((p / pb) ** (-r_gas * safe_b / g0) - 1.0)
+    iso = hb - r_gas * tb / g0 * np.log(p / pb)
+    geop = np.where(b != 0.0, grad, iso)
+    return r_earth * geop / (r_earth - geop)
+
+
 def barometric_pressure(altitude_m, atmosphere: str = "isa"):
     """Barometric pressure at a geometric altitude.
 
@@ -112,10 +168,7 @@ def barometric_pressure(altitude_m, atmosphere: str = "isa"):
     _check_name(atmosphere)
     if atmosphere == "isa":
         h = _check_range(altitude_m, ISA_MIN_M, ISA_MAX_M, "altitude", "m", "ICAO standard atmosphere")
-        from ambiance import Atmosphere  # heavy import, only when needed
-
-        p_pa = Atmosphere(np.atleast_1d(h)).pressure.reshape(np.shape(h))
-        return _shape_like(p_pa / PA_PER_MMHG, altitude_m)
+        return _shape_like(isa_pressure_pa(h) / PA_PER_MMHG, altitude_m)
     h = _check_range(altitude_m, MOUNTAIN_MIN_M, MOUNTAIN_MAX_M, "altitude", "m", "mountain")
     h_km = h / 1000.0
     pb = np.exp(_WEST_A - _WEST_B * h_km - _WEST_C * h_km**2) * _TORR_TO_MMHG
@@ -150,10 +203,7 @@ def altitude_for_pressure(pb_mmhg, atmosphere: str = "isa"):
         lo = float(barometric_pressure(ISA_MAX_M, "isa"))
         hi = float(barometric_pressure(ISA_MIN_M, "isa"))
         p = _check_range(pb_mmhg, lo, hi, "pressure", "mmHg", "ICAO standard atmosphere")
-        from ambiance import Atmosphere
-
-        h = Atmosphere.from_pressure(np.atleast_1d(p) * PA_PER_MMHG).h.reshape(np.shape(p))
-        return _shape_like(h, pb_mmhg)
+        return _shape_like(isa_altitude_for_pressure_m(p * PA_PER_MMHG), pb_mmhg)
     lo = float(barometric_pressure(MOUNTAIN_MAX_M, "mountain"))
     hi = float(barometric_pressure(MOUNTAIN_MIN_M, "mountain"))
     p = _check_range(pb_mmhg, lo, hi, "pressure", "mmHg", "mountain")
@@ -170,21 +220,19 @@ def pressure_altitude_ft_to_mmhg(pressure_altitude_ft):
     geometric height, so the geopotential value is converted first (the difference is
     about 0.15 % at 40,000 ft).
     """
-    from ambiance import Atmosphere
-
     from .units import M_PER_FT
 
+    r_earth = _isa_layers()[-1]
     geop_m = np.asarray(pressure_altitude_ft, dtype=float) * M_PER_FT
-    geom_m = Atmosphere.geop2geom_height(geop_m)
+    geom_m = r_earth * geop_m / (r_earth - geop_m)
     return barometric_pressure(_shape_like(geom_m, pressure_altitude_ft), "isa")
 
 
 def pressure_altitude_ft(pb_mmhg):
     """Pressure altitude (ISA geopotential height of the pressure) in feet. [ft]"""
-    from ambiance import Atmosphere
-
     from .units import M_PER_FT
 
-    geom_m = altitude_for_pressure(pb_mmhg, "isa")
-    geop_m = Atmosphere.geom2geop_height(np.asarray(geom_m, dtype=float))
+    r_earth = _isa_layers()[-1]
+    geom_m = np.asarray(altitude_for_pressure(pb_mmhg, "isa"), dtype=float)
+    geop_m = r_earth * geom_m / (r_earth + geom_m)
     return _shape_like(geop_m / M_PER_FT, pb_mmhg)

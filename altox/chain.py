@@ -23,6 +23,9 @@ ASSESS_KEYS = (
 )
 
 
+CHUNK_SIZE = 1 << 15   # elements per piece when assess is given large arrays
+
+
 def _model_range(atmosphere):
     return (ISA_MIN_M, ISA_MAX_M) if atmosphere == "isa" else (MOUNTAIN_MIN_M, MOUNTAIN_MAX_M)
 
@@ -96,6 +99,26 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
     """
     if atmosphere not in ATMOSPHERES:
         raise ValueError(f"unknown atmosphere {atmosphere!r}; valid: {', '.join(ATMOSPHERES)}")
+    arrays = dict(altitude_m=altitude_m, pb_mmhg=pb_mmhg, fio2=fio2, days=days, f_ventilatory=f_ventilatory,
+                  f_renal=f_renal, age_y=age_y, hb_g_dl=hb_g_dl, rq=rq, body_temp_c=body_temp_c,
+                  paco2_mmhg=paco2_mmhg, ph=ph, metabolic_ratio=metabolic_ratio,
+                  hypoxic_gain_scale=hypoxic_gain_scale, drive_scale=drive_scale,
+                  hco3_offset_mmol_l=hco3_offset_mmol_l, shunt_fraction=shunt_fraction, p50_mmhg=p50_mmhg)
+    given = {k: np.asarray(v, dtype=float) for k, v in arrays.items() if v is not None}
+    shape = np.broadcast(*given.values()).shape
+    size = int(np.prod(shape)) if shape else 1
+    if size > CHUNK_SIZE:
+        # cache-sized pieces: the same arithmetic, without paging fresh memory for every temporary
+        flat = {k: np.broadcast_to(v, shape).ravel() for k, v in given.items()}
+        parts = [assess(atmosphere=atmosphere, **{k: v[i:i + CHUNK_SIZE] for k, v in flat.items()})
+                 for i in range(0, size, CHUNK_SIZE)]
+        out = {}
+        for key in ASSESS_KEYS:
+            if key == "atmosphere":
+                out[key] = parts[0][key]
+            else:
+                out[key] = np.concatenate([part[key] for part in parts]).reshape(shape)
+        return out
     if altitude_m is None and pb_mmhg is None:
         raise OutOfRangeError("give an altitude or a measured pressure", field="altitude",
                               expected="an altitude in m or a pressure in mmHg")

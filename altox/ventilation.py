@@ -95,7 +95,19 @@ def acclimatization_fractions(days, params: VentilationParameters | None = None)
 
 def _phi(po2, p: VentilationParameters):
     w = p.hypoxic_smoothing_mmhg
-    return 1.0 / (w * np.logaddexp(0.0, (po2 - p.hypoxic_asymptote_mmhg) / w))
+    z = (po2 - p.hypoxic_asymptote_mmhg) / w
+    return 1.0 / (w * (np.maximum(z, 0.0) + np.log1p(np.exp(-np.abs(z)))))
+
+
+def _phi_and_slope(po2, p: VentilationParameters):
+    """phi(P) and dphi/dP: phi = 1/S, S = w softplus(z), dS/dP = sigmoid(z)."""
+    w = p.hypoxic_smoothing_mmhg
+    z = (po2 - p.hypoxic_asymptote_mmhg) / w
+    e = np.exp(-np.abs(z))
+    big_s = w * (np.maximum(z, 0.0) + np.log1p(e))
+    sigmoid = np.where(z >= 0.0, 1.0 / (1.0 + e), e / (1.0 + e))
+    phi = 1.0 / big_s
+    return phi, -sigmoid * phi * phi
 
 
 @lru_cache(maxsize=1)
@@ -122,26 +134,40 @@ def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hy
     base = p.baseline_paco2_mmhg * met
     log_sol = np.log10(blood.CO2_SOLUBILITY_MMOL_L_MMHG)
 
-    def state(u):
+    def state(u, derivative=False):
         x = np.exp(u)
         paco2 = base / x
         pao2 = pio2 - paco2 * factor
         k = np.where(paco2 < 40.0, k_low, k_high)
-        hco3 = np.maximum(hco3_n - k * (40.0 - paco2), 1.0)
+        hco3_raw = hco3_n - k * (40.0 - paco2)
+        hco3 = np.maximum(hco3_raw, 1.0)
         ph = blood.PK_CARBONIC + np.log10(hco3) - log_sol - np.log10(paco2)
         central = np.maximum(0.0, 1.0 - p.central_ph_gain * (ph - 7.40))
-        hypoxic = np.maximum(1.0 + gain * (_phi(pao2 - p.sensor_aado2_mmhg, p) - phi_sl), 0.5)
-        return u - np.log(np.maximum(dscale * central * hypoxic, 1e-12)), paco2, hco3, ph
+        if not derivative:
+            hypoxic = np.maximum(1.0 + gain * (_phi(pao2 - p.sensor_aado2_mmhg, p) - phi_sl), 0.5)
+            return u - np.log(np.maximum(dscale * central * hypoxic, 1e-12)), paco2, hco3, ph
+        phi, dphi = _phi_and_slope(pao2 - p.sensor_aado2_mmhg, p)
+        hyp_raw = 1.0 + gain * (phi - phi_sl)
+        hypoxic = np.maximum(hyp_raw, 0.5)
+        drive = dscale * central * hypoxic
+        g = u - np.log(np.maximum(drive, 1e-12))
+        dhco3 = np.where(hco3_raw > 1.0, -k * paco2, 0.0)
+        dph = (dhco3 / hco3 + 1.0) / np.log(10.0)
+        dcentral = np.where(central > 0.0, -p.central_ph_gain * dph, 0.0)
+        dhyp = np.where(hyp_raw > 0.5, gain * dphi * factor * paco2, 0.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            dg = np.where(drive > 1e-12, 1.0 - dcentral / central - dhyp / hypoxic, 1.0)
+        return g, dg
 
-    return pio2, state
+    return pio2, state, (pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off)
 
 
 def equilibrium_residual(ventilation_ratio, pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0,
                          metabolic_ratio=1.0, *, hypoxic_gain_scale=1.0, drive_scale=1.0,
                          hco3_offset_mmol_l=0.0, params: VentilationParameters | None = None):
     """The residual ``g = ln x - ln(s c h)`` that :func:`equilibrium` drives to zero (for checks)."""
-    _, state = _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hypoxic_gain_scale,
-                           drive_scale, hco3_offset_mmol_l, params)
+    _, state, _ = _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
+                              hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l, params)
     return state(np.log(np.asarray(ventilation_ratio, dtype=float)))[0]
 
 
@@ -181,15 +207,82 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
     Notes
     -----
     ``g(u) = u - ln(s c h)`` is increasing in ``u = ln x`` (more ventilation lowers PCO2 and
-    raises PO2, both lowering the drive), so the root is unique.  It is bracketed in
-    ``x`` from 0.3 to 40 and found on whole arrays by the Illinois variant of regula falsi
-    (superlinear; about 10 evaluations for 1e-11) after four halvings, stopping when every element has
-    ``|g| < tolerance``; elements still above it after ``max_iterations`` are reported as
-    not converged, as are roots pinned to the bracket's ends.
+    raises PO2, both lowering the drive), so the root is unique in ``x`` from 0.3 to 40.
+    The fast path starts from a bilinear guess in a small table of solved points (PIO2 x
+    acclimatization, cached per set of scalar inputs) and takes at most six Newton steps
+    with the analytic derivative on the whole array; any element not within
+    ``|g| < tolerance`` then is solved by the robust path, the Illinois variant of regula
+    falsi on the bracket after four halvings.  Roots pinned to the bracket's ends, or not
+    settled after ``max_iterations``, are reported as not converged.
     """
-    pio2, state = _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
-                              hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l, params)
+    shape = np.broadcast(*(np.asarray(a) for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
+                                                     hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l))).shape
+    flat = [np.broadcast_to(np.asarray(a, dtype=float), shape).ravel()
+            for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
+                      hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l)]
+    pio2, state, args = _make_state(*flat, params)
+    lo, hi = np.log(0.3), np.log(40.0)
+    u = _initial_guess(args, params)
+    todo = np.ones(pio2.shape, dtype=bool)
+    used = 1
+    for used in range(1, NEWTON_STEPS + 1):
+        g, dg = state(u, derivative=True)
+        todo = ~(np.abs(g) <= tolerance)
+        if not todo.any():
+            break
+        step = np.where(todo & (dg > 0.0), g / np.where(dg > 0.0, dg, 1.0), 0.0)
+        u = np.clip(u - step, lo, hi)
+    else:
+        todo = ~(np.abs(state(u)[0]) <= tolerance)
+    converged = np.ones(pio2.shape, dtype=bool)
+    if todo.any():  # the rare points Newton did not settle: the bracketed solver, on them only
+        sub_args = [np.asarray(a)[todo] for a in args]
+        sub_pio2, sub_state, _ = _make_state(*sub_args, params)
+        u_sub, conv_sub, more = _solve_bracketed(sub_pio2, sub_state, max_iterations, tolerance)
+        u = u.copy()
+        u[todo] = u_sub
+        converged[todo] = conv_sub
+        used += more
+    g, paco2, hco3, ph = state(u)
+    return {"paco2_mmhg": paco2.reshape(shape), "ventilation_ratio": np.exp(u).reshape(shape),
+            "hco3_mmol_l": hco3.reshape(shape), "ph": ph.reshape(shape),
+            "converged": converged.reshape(shape), "iterations": used}
 
+
+NEWTON_STEPS = 6
+_GUESS_PIO2 = np.linspace(15.0, 215.0, 401)
+_GUESS_F = np.linspace(0.0, 1.0, 5)
+
+
+@lru_cache(maxsize=32)
+def _guess_table(fio2, rq, met, gscale, dscale, off):
+    """ln x solved on a grid of PIO2 x acclimatization (fv = fr), for the initial guess."""
+    pio2 = np.repeat(_GUESS_PIO2[None, :], _GUESS_F.size, axis=0)
+    f = np.repeat(_GUESS_F[:, None], _GUESS_PIO2.size, axis=1)
+    g_pio2, state, _ = _make_state(pio2, fio2, rq, f, f, met, gscale, dscale, off, None)
+    u, _, _ = _solve_bracketed(g_pio2, state, 80, 1e-12)
+    return u
+
+
+def _initial_guess(args, params):
+    """Bilinear interpolation in the guess table; scalar stand-ins for the other inputs."""
+    pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = args
+    key = tuple(round(float(np.mean(a)), 6) for a in (fio2_a, rq_a, met, gscale, dscale, off))
+    table = _guess_table(*key) if params is None else _guess_table.__wrapped__(*key)
+    step_p = _GUESS_PIO2[1] - _GUESS_PIO2[0]
+    pos_p = np.clip((pio2 - _GUESS_PIO2[0]) / step_p, 0.0, _GUESS_PIO2.size - 1.000001)
+    i = pos_p.astype(np.intp)
+    wp = pos_p - i
+    pos_f = np.clip(0.5 * (fv + fr), 0.0, 1.0) * (_GUESS_F.size - 1)
+    j = np.minimum(pos_f.astype(np.intp), _GUESS_F.size - 2)
+    wf = pos_f - j
+    t00, t01 = table[j, i], table[j, i + 1]
+    t10, t11 = table[j + 1, i], table[j + 1, i + 1]
+    return (1 - wf) * ((1 - wp) * t00 + wp * t01) + wf * ((1 - wp) * t10 + wp * t11)
+
+
+def _solve_bracketed(pio2, state, max_iterations, tolerance):
+    """Illinois regula falsi on u = ln x in [ln 0.3, ln 40], after four halvings (robust path)."""
     lo = np.full(pio2.shape, np.log(0.3))
     hi = np.full(pio2.shape, np.log(40.0))
     g_lo = state(lo)[0]
@@ -225,10 +318,9 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
         active = active & (np.abs(g) > tolerance)
         if not active.any():
             break
-    g, paco2, hco3, ph = state(u)
+    g = state(u)[0]
     converged = (np.abs(g) <= tolerance * 10.0) & ~pinned_low & ~pinned_high
-    return {"paco2_mmhg": paco2, "ventilation_ratio": np.exp(u), "hco3_mmol_l": hco3, "ph": ph,
-            "converged": converged, "iterations": used}
+    return u, converged, used
 
 
 def inspired_and_equilibrium(pb_mmhg, fio2=AIR_FIO2, rq=0.8, body_temp_c=37.0, days=0.0):

@@ -90,3 +90,15 @@ def test_mountain_out_of_range_and_unknown_model():
         barometric_pressure(12000.0, "mountain")
     with pytest.raises(ValueError, match="valid: isa, mountain"):
         barometric_pressure(1000.0, "arctic")
+
+
+def test_closed_form_isa_equals_ambiance_over_its_whole_range():
+    # the fast path must be ambiance's own formulas: identical within 1e-9 relative, -5004 to 81020 m
+    from ambiance import Atmosphere
+
+    from altox.atmosphere import isa_altitude_for_pressure_m, isa_pressure_pa
+
+    h = np.linspace(-5004.0, 81020.0, 100001)
+    np.testing.assert_allclose(isa_pressure_pa(h), Atmosphere(h).pressure, rtol=1e-9, atol=0.0)
+    p = np.geomspace(Atmosphere(81020.0).pressure[0], Atmosphere(-5004.0).pressure[0], 1001)
+    np.testing.assert_allclose(isa_altitude_for_pressure_m(p), Atmosphere.from_pressure(p).h, rtol=1e-9, atol=1e-6)
