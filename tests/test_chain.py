@@ -66,7 +66,8 @@ def test_scalar_and_array_agree(alts, d):
     for i, a in enumerate(alts):
         one = altox.assess(a, atmosphere="mountain", days=d)
         for k in ("sao2_pct", "arterial_po2_mmhg", "alveolar_pco2_mmhg", "arterial_ph"):
-            assert arr[k][i] == pytest.approx(one[k], rel=1e-12, abs=1e-12)
+            # the solver stops at |ln x - ln drive| < 1e-11; agreement is held to 1e-9
+            assert arr[k][i] == pytest.approx(one[k], rel=1e-9, abs=1e-9)
 
 
 def test_no_steady_state_is_flagged():

@@ -79,3 +79,44 @@ def test_rules_option_replaces_plan_rules():
     assert data["rule_sets"] == ["eu-nco"]
     proc = run("plan", demo, "--rules", "no-such-rules")
     assert proc.returncode == 2 and "no-such-rules" in proc.stderr
+
+
+LOCAL_RULES = """\
+id: club-local
+title: "Flying club local oxygen procedure (invented for the test)"
+label: "club procedure"
+jurisdiction: "local"
+kind: aviation
+edition: "test"
+citation: "Invented local procedure used only by the test suite"
+caution: "Guidance only; the operator's procedures decide."
+thresholds:
+  - id: crew-above-9000-20min
+    applies_to: crew
+    quantity: cabin_pressure_altitude
+    check: oxygen
+    value: "9,000 ft"
+    duration: "more than 20 min"
+    requirement: "crew use oxygen above 9,000 ft for more than 20 minutes"
+    section: "local 1"
+    basis: common practice
+    where: "test"
+"""
+
+
+def test_users_own_rule_file_from_plan_and_command_line(tmp_path):
+    rules = tmp_path / "club.yaml"
+    rules.write_text(LOCAL_RULES)
+    plan_text = (ROOT / "profiles" / "piston-ridge-crossing.yaml").read_text()
+    plan = tmp_path / "crossing.yaml"
+    plan.write_text(plan_text.replace("rules: [us-14cfr-91]", "rules: [us-14cfr-91]\nrule_file: club.yaml"))
+    data = json.loads(run("plan", str(plan), "--json").stdout)
+    assert "club-local" in data["rule_sets"]
+    assert any(f["rule_set_id"] == "club-local" for f in data["findings"])
+    data = json.loads(run("plan", str(ROOT / "profiles" / "piston-ridge-crossing.yaml"), "--json",
+                          "--rules", str(rules)).stdout)
+    assert any(f["rule_set_id"] == "club-local" for f in data["findings"])
+    broken = tmp_path / "broken.yaml"
+    broken.write_text(LOCAL_RULES.replace('value: "9,000 ft"', 'value: "9,000"'))
+    proc = run("plan", str(ROOT / "profiles" / "piston-ridge-crossing.yaml"), "--rules", str(broken))
+    assert proc.returncode == 2 and "broken.yaml" in proc.stderr and "Traceback" not in proc.stderr

@@ -24,7 +24,7 @@ import math
 import re
 from importlib import resources
 from pathlib import Path
-from typing import Literal
+from typing import Literal, Optional
 
 import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
@@ -32,7 +32,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 from ..errors import AltoxError, ProfileError
 from ..units import H_PER_DAY, parse_quantity
 
-Basis = Literal["read", "from memory"]
+Basis = Literal["read", "from memory", "common practice", "local"]  # the last two for users' own files
 AppliesTo = Literal["crew", "flight crew", "passengers", "all occupants", "party"]
 Quantity = Literal[
     "cabin_pressure_altitude",        # ft (pressure altitude of the cabin)
@@ -278,7 +278,7 @@ class RuleSet(_Strict):
     jurisdiction: str = Field(min_length=1)
     kind: Literal["aviation", "expedition"]
     edition: str = Field(min_length=1)
-    effective: str = Field(min_length=1)
+    effective: Optional[str] = Field(None, min_length=1)
     citation: str = Field(min_length=1)
     url: str | None = None
     caution: str = Field(min_length=1)
