@@ -46,7 +46,7 @@ from .units import M_PER_FT, PA_PER_MMHG, PA_PER_PSI, parse_fraction, parse_quan
 from .yamlload import PositionMap, format_path, parse_yaml, plan_dir, read_plan_data
 
 __all__ = [
-    "ExpeditionPlan", "FlightPlan", "Plan", "Member", "Day", "DayOxygen", "Aircraft", "Occupant",
+    "ExpeditionPlan", "FlightPlan", "Plan", "Member", "Day", "Observation", "LakeLouise", "DayOxygen", "Aircraft", "Occupant",
     "Leg", "load_plan", "load_plan_text", "plan_from_data", "plan_json_schema",
     "parse_hemoglobin", "parse_flow", "parse_vertical_speed", "flight_leg_altitudes",
     "EXPEDITION_MIN_M", "EXPEDITION_MAX_M", "FLIGHT_MIN_FT", "FLIGHT_MAX_FT",
@@ -481,6 +481,89 @@ class Member(_Model):
     acetazolamide: StrictBool = Field(False, description="Takes acetazolamide for prevention.")
     role: Optional[StrictStr] = Field(None, description="Free text: leader, guide, cook, ...",
                                       examples=["leader"])
+    hvr: Optional[Literal["low", "normal", "high"]] = Field(
+        None, description="Hypoxic ventilatory response, if measured: low, normal or high (the "
+        "population's lower, middle or upper third).")
+    home_spo2: Annotated[Optional[float], BeforeValidator(_opt(_spo2)),
+                         WithJsonSchema({"anyOf": [{"type": "number"}, {"type": "string"},
+                                                   {"type": "null"}],
+                                         "examples": ["96 %"]})] = Field(
+        None, description="Resting SpO2 at home altitude, breathing air. [fraction]")
+    fev1_fraction: Annotated[Optional[float], BeforeValidator(_opt(_fev1)),
+                             WithJsonSchema({"anyOf": [{"type": "number"}, {"type": "string"},
+                                                       {"type": "null"}],
+                                             "examples": [0.8, "80 %"]})] = Field(
+        None, alias="fev1", description="FEV1 as a fraction of predicted. [fraction]")
+    lung_disease: Optional[StrictStr] = Field(None, description="Free text.", examples=["asthma"])
+
+
+# -- readings (observations) on an expedition -------------------------------------------------
+_HR_RE = re.compile(r"^\s*(\d+(?:\.\d*)?)\s*(/\s*min|bpm|beats\s*/\s*min|per\s+min(?:ute)?)\s*$", re.I)
+_HR_EXPECTED = "a resting heart rate from 20 to 250 per minute, e.g. '96 /min' or '96 bpm'"
+_TIME_RE = re.compile(r"^\s*([01]?\d|2[0-3]):([0-5]\d)\s*$")
+
+
+def _heart_rate(value) -> float:
+    m = _HR_RE.match(value) if isinstance(value, str) else None
+    if m is None:
+        hint = " (write it with its unit)" if isinstance(value, (int, float)) and not isinstance(value, bool) else ""
+        raise _Problem(f"{value!r} is not a heart rate{hint}; expected {_HR_EXPECTED}.", expected=_HR_EXPECTED)
+    rate = float(m.group(1))
+    if not 20.0 <= rate <= 250.0:
+        raise _Problem(f"{value!r} is outside 20-250 /min; expected {_HR_EXPECTED}.", expected=_HR_EXPECTED)
+    return rate
+
+
+def _clock_h(value) -> float:
+    expected = "a clock time HH:MM from 00:00 to 23:59, quoted, e.g. '07:30'"
+    m = _TIME_RE.match(value) if isinstance(value, str) else None
+    if m is None:
+        hint = (" (YAML reads an unquoted 07:30 as a number; quote it)"
+                if isinstance(value, int) and not isinstance(value, bool) else "")
+        raise _Problem(f"{value!r} is not a clock time{hint}; expected {expected}.", expected=expected)
+    return int(m.group(1)) + int(m.group(2)) / 60.0
+
+
+_LLS_ITEM = Annotated[StrictInt, Field(ge=0, le=3)]
+
+
+class LakeLouise(_Model):
+    """The four self-reported items of the 2018 Lake Louise AMS score (Roach et al. 2018), each 0-3."""
+
+    headache: _LLS_ITEM = Field(description="0 none, 1 mild, 2 moderate, 3 severe (incapacitating).")
+    gi: _LLS_ITEM = Field(description="Gastrointestinal: 0 good appetite, 1 poor appetite or nausea, "
+                          "2 moderate nausea or vomiting, 3 severe (incapacitating).")
+    fatigue: _LLS_ITEM = Field(description="Fatigue and/or weakness, 0-3.")
+    dizziness: _LLS_ITEM = Field(description="Dizziness or light-headedness, 0-3.")
+
+
+class Observation(_Model):
+    """A reading taken on the expedition: SpO2, heart rate and/or a Lake Louise score."""
+
+    day: StrictInt = Field(description="The plan day the reading was taken on.")
+    member: Name = Field(description="The party member's name, as in 'party'.")
+    time_h: Annotated[Optional[float], BeforeValidator(_opt(_clock_h)),
+                      WithJsonSchema({"anyOf": [{"type": "string", "pattern": _TIME_RE.pattern},
+                                                {"type": "null"}], "examples": ["07:30"]})] = Field(
+        None, alias="time", description="Clock time (quoted 'HH:MM'); default 18:00, in camp. [h]")
+    spo2: Annotated[Optional[float], BeforeValidator(_opt(_spo2)),
+                    WithJsonSchema({"anyOf": [{"type": "number"}, {"type": "string"}, {"type": "null"}],
+                                    "examples": ["84 %"]})] = Field(
+        None, description="Resting pulse-oximetry SpO2. [fraction]")
+    heart_rate_per_min: Annotated[Optional[float], BeforeValidator(_opt(_heart_rate)),
+                                  WithJsonSchema({"anyOf": [{"type": "string"}, {"type": "null"}],
+                                                  "examples": ["96 /min"]})] = Field(
+        None, alias="heart_rate", description="Resting heart rate. [/min]")
+    lake_louise: Optional[Union[LakeLouise, Annotated[StrictInt, Field(ge=0, le=12)]]] = Field(
+        None, description="2018 Lake Louise AMS score: the four items, or the total (0-12) alone.")
+    note: Optional[StrictStr] = Field(None, description="Free text.")
+
+    @model_validator(mode="after")
+    def _something(self):
+        if self.spo2 is None and self.heart_rate_per_min is None and self.lake_louise is None:
+            raise _Problem("a reading needs at least one of 'spo2', 'heart_rate' or 'lake_louise'.",
+                           expected="spo2, heart_rate or lake_louise", value=None)
+        return self
 
 
 class DayOxygen(_Model):
@@ -616,6 +699,8 @@ class ExpeditionPlan(_PlanBase):
         alias="start_altitude", description="Where the party slept the night before day 1. [m]")
     party: list[Member] = Field(default_factory=list, description="The people.")
     days: list[Day] = Field(min_length=1, max_length=MAX_DAYS, description="The days, in order.")
+    observations: list[Observation] = Field(
+        default_factory=list, description="Readings taken on the way: SpO2, heart rate, Lake Louise score.")
 
     @model_validator(mode="after")
     def _check(self):
@@ -628,6 +713,17 @@ class ExpeditionPlan(_PlanBase):
                                "numbered 1, 2, 3, ... in order, without gaps or repeats).",
                                loc=("days", i, "day"), value=day.day, expected=f"day: {i + 1}")
         _unique_names(self.party, "party")
+        names = [m.name for m in self.party]
+        for i, obs in enumerate(self.observations):
+            if obs.member not in names:
+                who = ", ".join(names) if names else "none: the plan has no 'party'"
+                raise _Problem(f"{obs.member!r} is not in the party.{_suggest(obs.member, names)} "
+                               f"Expected one of: {who}.", loc=("observations", i, "member"),
+                               expected="a name from 'party'")
+            if not 1 <= obs.day <= len(self.days):
+                raise _Problem(f"day {obs.day} is not in the plan; expected a day from 1 to "
+                               f"{len(self.days)}.", loc=("observations", i, "day"),
+                               expected=f"a day from 1 to {len(self.days)}")
         self._check_samples()
         return self
 

@@ -1,0 +1,203 @@
+"""After a cabin decompression: time of useful consciousness, time to descend, oxygen for the descent.
+
+* :func:`tuc_range_s`: the time of useful consciousness (TUC) at a cabin pressure altitude, as
+  a range, from the table of ``altox/data/tuc.yaml`` (FAA AIM 8-1-2 and AC 61-107B Table 1-1).
+  Between tabulated altitudes each bound is interpolated linearly in altitude on the logarithm
+  of time; below the table the result is "more than" the lowest row's upper bound; above it the
+  highest row's range is returned (never extrapolated).  A rapid decompression may shorten TUC
+  by up to half (``rapid_decompression_factor``).
+* :func:`descent_time_min`: time to descend from one altitude to another at a constant rate.
+* :func:`oxygen_free_altitudes_ft`: from guidance rule sets, the lowest cabin altitude at
+  which each group (crew, passengers) must have oxygen with no time allowance.
+* :func:`descent_oxygen_l`: oxygen per occupant for an emergency descent under the simple,
+  documented convention of ``oxygen_devices.yaml`` (``descent_oxygen``): from the
+  decompression altitude, after a reaction time, straight down at the given rate to the
+  group's oxygen-free altitude, holding the inspired PO2 of air at that altitude.
+
+All functions are vectorised over altitudes; the rule-set part is plain Python.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .errors import OutOfRangeError
+from .oxygen import _scalar, load_data
+
+__all__ = ["tuc_table", "tuc_range_s", "descent_time_min", "oxygen_free_altitudes_ft",
+           "descent_oxygen_l", "descent_convention", "TUC_BELOW", "TUC_WITHIN", "TUC_ABOVE"]
+
+TUC_BELOW, TUC_WITHIN, TUC_ABOVE = -1, 0, 1
+
+
+def tuc_table() -> dict:
+    """The TUC table: ``altitude_ft``, ``min_s``, ``max_s`` arrays, the rows with their sources,
+    ``rapid_decompression_factor``, ``interpolation`` and ``caution``."""
+    data = load_data("tuc")
+    rows = sorted(data["rows"], key=lambda r: r["altitude_ft"])
+    return {"altitude_ft": np.array([r["altitude_ft"] for r in rows], dtype=float),
+            "min_s": np.array([r["min_s"] for r in rows], dtype=float),
+            "max_s": np.array([r["max_s"] for r in rows], dtype=float),
+            "rows": rows, "rapid_decompression_factor": float(data["rapid_decompression_factor"]),
+            "rapid_decompression_source": data["rapid_decompression_source"],
+            "interpolation": data["interpolation"], "caution": data["caution"]}
+
+
+def tuc_range_s(altitude_ft):
+    """Time of useful consciousness at a cabin pressure altitude, as a range. [s]
+
+    Parameters
+    ----------
+    altitude_ft : numeric
+        Cabin pressure altitude (after a decompression, the aircraft's). [ft]
+
+    Returns
+    -------
+    dict
+        ``min_s``, ``max_s`` (interpolated log-linearly between tabulated altitudes;
+        ``min_s`` is NaN below the table, where ``max_s`` is the lowest row's upper bound, to
+        be read "more than"), ``rapid_min_s`` (``min_s`` times the rapid-decompression
+        factor), ``position`` (:data:`TUC_BELOW`, :data:`TUC_WITHIN` or :data:`TUC_ABOVE`).
+
+    Examples
+    --------
+    >>> tuc_range_s(35000.0)["min_s"], tuc_range_s(35000.0)["max_s"]
+    (30.0, 60.0)
+    """
+    t = tuc_table()
+    a = np.asarray(altitude_ft, dtype=float)
+    if np.any(~np.isfinite(a)):
+        raise OutOfRangeError("the altitude must be a finite number of feet", field="altitude",
+                              expected="a pressure altitude in ft")
+    alt = t["altitude_ft"]
+    lo_b = np.exp(np.interp(a, alt, np.log(t["min_s"])))
+    hi_b = np.exp(np.interp(a, alt, np.log(t["max_s"])))
+    position = np.where(a < alt[0], TUC_BELOW, np.where(a > alt[-1], TUC_ABOVE, TUC_WITHIN))
+    lo_b = np.where(position == TUC_BELOW, np.nan, lo_b)
+    hi_b = np.where(position == TUC_BELOW, t["max_s"][0], hi_b)
+    return {"min_s": _scalar(lo_b), "max_s": _scalar(hi_b),
+            "rapid_min_s": _scalar(lo_b * t["rapid_decompression_factor"]),
+            "position": _scalar(position)}
+
+
+def descent_time_min(from_ft, to_ft, rate_ft_min):
+    """Time to descend from ``from_ft`` to ``to_ft`` at a constant rate. [min] Zero if already below.
+
+    Raises
+    ------
+    OutOfRangeError
+        A rate that is not a positive number.
+    """
+    r = np.asarray(rate_ft_min, dtype=float)
+    if np.any(~np.isfinite(r) | (r <= 0)):
+        raise OutOfRangeError("the descent rate must be a positive number of ft/min", field="rate",
+                              expected="> 0 ft/min, e.g. '4,000 ft/min'")
+    drop = np.maximum(np.asarray(from_ft, dtype=float) - np.asarray(to_ft, dtype=float), 0.0)
+    return _scalar(drop / r)
+
+
+def descent_convention() -> dict:
+    """The documented convention for descent oxygen (``oxygen_devices.yaml``, ``descent_oxygen``)."""
+    return dict(load_data("oxygen_devices")["descent_oxygen"])
+
+
+_CREW = ("crew", "flight crew", "all occupants")
+_PASSENGERS = ("passengers", "all occupants")
+
+
+def oxygen_free_altitudes_ft(rule_sets) -> dict:
+    """Lowest cabin altitude at which each group must have oxygen with no time allowance.
+
+    Parameters
+    ----------
+    rule_sets : iterable of altox.rules.RuleSet
+        Aviation rule sets (others are ignored).
+
+    Returns
+    -------
+    dict
+        ``{'crew': ft, 'passengers': ft, 'crew_from': 'rule-set-id section' or 'default',
+        'passengers_from': ...}``.  Thresholds with a duration ("more than 30 min") do not
+        count, since a descent is short; without such a threshold the defaults of
+        ``descent_oxygen.default_oxygen_free_ft`` apply.
+    """
+    conv = descent_convention()
+    out = {"crew": float(conv["default_oxygen_free_ft"]["crew"]), "crew_from": "default",
+           "passengers": float(conv["default_oxygen_free_ft"]["passengers"]), "passengers_from": "default"}
+    best = {"crew": None, "passengers": None}
+    for rs in rule_sets or ():
+        if getattr(rs, "kind", None) != "aviation":
+            continue
+        for th in rs.thresholds:
+            if th.check != "oxygen" or th.duration is not None:
+                continue
+            ft = float(th.lower_ft)
+            for group, who in (("crew", _CREW), ("passengers", _PASSENGERS)):
+                if th.applies_to in who and (best[group] is None or ft < best[group][0]):
+                    best[group] = (ft, f"{rs.id} {th.section}")
+    for group in best:
+        if best[group] is not None:
+            out[group], out[f"{group}_from"] = best[group]
+    return out
+
+
+def descent_oxygen_l(from_ft, to_ft, rate_ft_min, *, device, activity, reaction_min=None, step_ft=250.0):
+    """Oxygen used by one occupant from a decompression at ``from_ft`` until the cabin is at ``to_ft``.
+
+    The occupant breathes through ``device`` enough oxygen to hold the inspired PO2 of ISA air
+    at ``to_ft`` (:func:`altox.oxygen.oxygen_for_target`), first for ``reaction_min`` at
+    ``from_ft``, then along a straight descent at ``rate_ft_min``, integrated on steps of
+    ``step_ft`` (midpoint rule).  Where the device cannot hold the target it is taken at its
+    most (100 % or its maximum flow) and the result says so.
+
+    Returns
+    -------
+    dict
+        ``oxygen_l`` (reference litres), ``minutes`` (on oxygen), ``target_held`` (throughout),
+        ``lowest_fio2_shortfall`` (largest FiO2 short of the target, 0 if held),
+        ``pressure_breathing`` (needed somewhere), ``device``, ``activity``, ``to_ft``.
+    """
+    from .atmosphere import pressure_altitude_ft_to_mmhg
+    from .oxygen import get_device, oxygen_for_target
+    from .units import M_PER_FT
+
+    conv = descent_convention()
+    reaction = float(conv["reaction_min"]) if reaction_min is None else float(reaction_min)
+    top, bottom = float(from_ft), float(to_ft)
+    rate = float(rate_ft_min)
+    if not np.isfinite(rate) or rate <= 0:
+        raise OutOfRangeError("the descent rate must be a positive number of ft/min", field="rate",
+                              expected="> 0 ft/min")
+    result = {"device": device, "activity": activity, "to_ft": bottom, "oxygen_l": 0.0, "minutes": 0.0,
+              "target_held": True, "lowest_fio2_shortfall": 0.0, "pressure_breathing": False}
+    if top <= bottom:
+        return result
+    n = max(1, int(np.ceil((top - bottom) / step_ft)))
+    edges = np.linspace(top, bottom, n + 1)
+    mids = 0.5 * (edges[:-1] + edges[1:])
+    alts = np.concatenate([[top], mids])
+    minutes = np.concatenate([[reaction], np.abs(np.diff(edges)) / rate])
+    r = oxygen_for_target(pressure_altitude_ft_to_mmhg(alts), device, activity,
+                          equivalent_altitude_m=_geometric_of_pressure_altitude_m(bottom * M_PER_FT))
+    flow = np.asarray(r["flow_l_min"], dtype=float)
+    if r["device_kind"] == "continuous":
+        flow = np.minimum(flow, float(get_device(device).get("max_flow_l_min", np.inf)))
+    shortfall = np.maximum(np.asarray(r["fio2_needed"], dtype=float) - np.asarray(r["fio2_achieved"], dtype=float), 0.0)
+    shortfall = np.where(np.asarray(r["reachable"], dtype=bool), shortfall,
+                         np.maximum(shortfall, np.asarray(r["fio2_raw"], dtype=float) - 1.0))
+    result.update({
+        "oxygen_l": float(np.sum(flow * minutes)),
+        "minutes": float(np.sum(minutes)),
+        "target_held": bool(np.all(np.asarray(r["device_reaches_target"], dtype=bool))),
+        "lowest_fio2_shortfall": float(np.max(np.where(np.isfinite(shortfall), shortfall, 1.0))),
+        "pressure_breathing": bool(np.any(np.asarray(r["pressure_breathing"], dtype=bool))),
+    })
+    return result
+
+
+def _geometric_of_pressure_altitude_m(pressure_altitude_m: float) -> float:
+    """ISA geometric altitude of a pressure altitude (the equivalent altitude is geometric)."""
+    from .atmosphere import altitude_for_pressure, pressure_altitude_ft_to_mmhg
+    from .units import M_PER_FT
+
+    return float(altitude_for_pressure(pressure_altitude_ft_to_mmhg(pressure_altitude_m / M_PER_FT), "isa"))

@@ -1,0 +1,413 @@
+"""Individual factors: a person's data turned into the keywords of :func:`altox.assess`, and fitness to fly.
+
+Every factor shifts the chain only where published evidence supports it (``docs/individual.md``;
+coefficients with their basis in ``altox/data/individual.yaml``):
+
+* age sets the venous admixture, so the alveolar-arterial difference widens with age
+  [Mellemgaard1966]_ (the core's default, :func:`altox.gas_exchange.shunt_fraction_for_age`);
+* hemoglobin sets oxygen content (``CaO2 = 1.34 Hb SaO2 + 0.003 PaO2``);
+* a measured hypoxic ventilatory response category (``low``, ``normal``, ``high``) scales the
+  hypoxic gain to the median of that third of the population's spread;
+* acetazolamide lowers plasma bicarbonate (a mild metabolic acidosis), which raises ventilation
+  through the central drive [Luks2019]_;
+* sleep lowers the chemoreflex drive (``drive_scale``), calibrated on [Tannheimer2002]_;
+* a resting SpO2 measured at home (lung disease) fixes the person's venous admixture.
+
+Fitness to fly compares, for a passenger with lung disease, the PaO2 predicted at 8,000 ft by
+Dillard's regression on ground PaO2 and FEV1 [Dillard1989]_ (and the chain's own estimate) with
+the thresholds the British Thoracic Society applies to a hypoxic challenge test [Coker2022]_.
+Guidance only: a prediction is not a hypoxic challenge test, and neither is a clearance to fly.
+
+References
+----------
+.. [Mellemgaard1966] Mellemgaard K. The alveolar-arterial oxygen difference: its size and
+   components in normal man. Acta Physiol Scand 1966;67:10-20.
+.. [Luks2019] Luks AM, Auerbach PS, Freer L, et al. Wilderness Medical Society Clinical Practice
+   Guidelines for the Prevention and Treatment of Acute Altitude Illness: 2019 Update. Wilderness
+   Environ Med 2019;30(4S):S3-S18.
+.. [Tannheimer2002] Tannheimer M, Thomas A, Gerngross H. Oxygen saturation course and altitude
+   symptomatology during an expedition to Broad Peak (8047 m). Int J Sports Med 2002;23:329-335.
+.. [Dillard1989] Dillard TA, Berg BW, Rajagopal KR, Dooley JW, Mehm WJ. Hypoxemia during air
+   travel in patients with chronic obstructive pulmonary disease. Ann Intern Med
+   1989;111:362-367.
+.. [Coker2022] Coker RK, Armstrong A, Church AC, et al. BTS Clinical Statement on air travel for
+   passengers with respiratory disease. Thorax 2022;77:329-350.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+
+from .errors import OutOfRangeError
+
+__all__ = ["coefficients", "hvr_gain_scale", "person_kwargs", "people_kwargs", "fit_shunt_fraction",
+           "dillard_pao2_altitude_mmhg", "fitness_to_fly", "occupant_fitness_to_fly",
+           "SLEEP", "FactorError"]
+
+#: the value of the ``sleeping`` argument that means "asleep"
+SLEEP = True
+DEFAULT_AGE_Y = 40.0
+_HOME_DAYS = 3650.0  # "fully acclimatized to home": both acclimatization fractions are 1
+
+
+class FactorError(OutOfRangeError):
+    """An individual factor that altox cannot use (e.g. an SpO2 the model cannot reach)."""
+
+
+@lru_cache(maxsize=1)
+def coefficients() -> dict:
+    """The table of ``altox/data/individual.yaml``, loaded once."""
+    from importlib.resources import files
+
+    import yaml
+
+    return yaml.safe_load(files("altox").joinpath("data/individual.yaml").read_text(encoding="utf-8"))
+
+
+def _value(section: str, key: str) -> float:
+    return coefficients()[section][key]["value"]
+
+
+def _norm_ppf(p):
+    from scipy.special import ndtri
+
+    return ndtri(np.asarray(p, dtype=float))
+
+
+def hvr_gain_scale(category=None):
+    """Hypoxic-gain multiplier for a ventilatory-response category.
+
+    Parameters
+    ----------
+    category : {None, 'low', 'normal', 'high'}
+        ``None`` and ``'normal'`` give 1 (the population median); ``'low'`` and ``'high'`` give
+        the median of the lower and upper third of the log-normal spread of
+        ``altox/data/individual.yaml`` (``population.hypoxic_gain_log_sd``).
+
+    Returns
+    -------
+    float
+    """
+    if category in (None, "normal"):
+        return 1.0
+    sd = _value("population", "hypoxic_gain_log_sd")
+    q = {"low": 1.0 / 6.0, "high": 5.0 / 6.0}.get(category)
+    if q is None:
+        raise FactorError(f"hvr: {category!r} is not a category; expected low, normal or high.",
+                          field="hvr", value=category, expected="low, normal or high")
+    return float(np.exp(sd * _norm_ppf(q)))
+
+
+def _get(person, *names, default=None):
+    for n in names:
+        v = getattr(person, n, None) if not isinstance(person, dict) else person.get(n)
+        if v is not None:
+            return v
+    return default
+
+
+def fit_shunt_fraction(target, *, altitude_m=0.0, atmosphere="mountain", target_kind="sao2",
+                       age_y=DEFAULT_AGE_Y, hb_g_dl=None, fio2=0.2095, days=_HOME_DAYS,
+                       f_ventilatory=None, f_renal=None):
+    """Venous admixture that makes the chain reproduce a measured resting SpO2 or PaO2.
+
+    The chain is evaluated on whole arrays at once and the shunt fraction found by bisection on
+    [0, ``lung.shunt_fraction_max``] (the resting PaO2 and SaO2 fall monotonically with it).
+
+    Parameters
+    ----------
+    target : numeric
+        Measured SpO2 (fraction 0-1, ``target_kind='sao2'``) or PaO2 (mmHg, ``'pao2'``).
+    altitude_m : numeric
+        Where it was measured (home, or the departure field). [m]
+    atmosphere : {'mountain', 'isa'}
+    target_kind : {'sao2', 'pao2'}
+    age_y, hb_g_dl, fio2 : numeric
+    days, f_ventilatory, f_renal : numeric
+        Acclimatization at the place of measurement; default fully acclimatized (home).
+
+    Returns
+    -------
+    ndarray
+        Shunt fraction(s), shaped like the broadcast inputs.
+
+    Raises
+    ------
+    FactorError
+        A value the model cannot reach: better than a lung without venous admixture, or worse
+        than the upper bound.
+    """
+    from .chain import assess
+
+    key = "sao2_pct" if target_kind == "sao2" else "arterial_po2_mmhg"
+    t = np.asarray(target, dtype=float) * (100.0 if target_kind == "sao2" else 1.0)
+    qs_max = _value("lung", "shunt_fraction_max")
+    kw = dict(atmosphere=atmosphere, fio2=fio2, age_y=age_y, hb_g_dl=hb_g_dl, days=days,
+              f_ventilatory=f_ventilatory, f_renal=f_renal)
+    shape = np.broadcast(t, np.asarray(altitude_m), np.asarray(age_y)).shape
+    alt = np.broadcast_to(np.asarray(altitude_m, dtype=float), shape)
+    best = np.asarray(assess(alt, shunt_fraction=np.zeros(shape), **kw)[key])
+    worst = np.asarray(assess(alt, shunt_fraction=np.full(shape, qs_max), **kw)[key])
+    tb = np.broadcast_to(t, shape)
+    what = "SpO2" if target_kind == "sao2" else "PaO2"
+    unit = " %" if target_kind == "sao2" else " mmHg"
+    if np.any(tb > best + 1e-9):
+        v = float(tb[tb > best + 1e-9].flat[0])
+        raise FactorError(f"a resting {what} of {v:.1f}{unit} is above what the model gives with no "
+                          f"venous admixture ({float(np.max(best)):.1f}{unit}) at that altitude; check "
+                          "the value or the altitude.", field=target_kind, value=v)
+    if np.any(tb < worst - 1e-9):
+        v = float(tb[tb < worst - 1e-9].flat[0])
+        raise FactorError(f"a resting {what} of {v:.1f}{unit} needs more venous admixture than altox "
+                          f"models (shunt above {qs_max:.0%}); the single-compartment lung does not "
+                          "describe this person.", field=target_kind, value=v)
+    lo = np.zeros(shape)
+    hi = np.full(shape, qs_max)
+    for _ in range(40):
+        mid = 0.5 * (lo + hi)
+        y = np.asarray(assess(alt, shunt_fraction=mid, **kw)[key])
+        above = y > tb
+        lo = np.where(above, mid, lo)
+        hi = np.where(above, hi, mid)
+    out = 0.5 * (lo + hi)
+    return out if out.shape else float(out)
+
+
+def _home_shunt(person):
+    spo2 = _get(person, "home_spo2")
+    if spo2 is None:
+        return None
+    return fit_shunt_fraction(spo2, altitude_m=float(_get(person, "home_altitude_m", default=0.0)),
+                              age_y=float(_get(person, "age_y", default=DEFAULT_AGE_Y)),
+                              hb_g_dl=_get(person, "hemoglobin_g_dl"))
+
+
+def person_kwargs(person, *, sleeping=False) -> dict:
+    """Keywords of :func:`altox.assess` for one person.
+
+    Parameters
+    ----------
+    person : object or dict
+        An :class:`altox.evaluate.Person`, an :class:`altox.profile.Member` or
+        :class:`~altox.profile.Occupant`, or a dict with the same names: ``age_y``,
+        ``hemoglobin_g_dl``, ``acetazolamide``, ``hvr``, ``home_spo2``, ``home_altitude_m``.
+        Missing values take the reference adult's (age 40, Hb 14.5 g/dL, typical response).
+    sleeping : bool or array of bool
+        Asleep (lower chemoreflex drive, ``sleep.drive_scale``). An array gives an array.
+
+    Returns
+    -------
+    dict
+        ``age_y``, ``hb_g_dl``, ``hypoxic_gain_scale``, ``drive_scale``,
+        ``hco3_offset_mmol_l``, and ``shunt_fraction`` only when fitted to a home SpO2.
+
+    Examples
+    --------
+    >>> person_kwargs({"age_y": 63.0, "acetazolamide": True})["hco3_offset_mmol_l"]
+    -4.0
+    """
+    from .ventilation import model_coefficients
+
+    hb = _get(person, "hemoglobin_g_dl", default=model_coefficients()["blood"]["hemoglobin_g_dl"]["value"])
+    out = {
+        "age_y": float(_get(person, "age_y", default=DEFAULT_AGE_Y)),
+        "hb_g_dl": float(hb),
+        "hypoxic_gain_scale": hvr_gain_scale(_get(person, "hvr")),
+        "drive_scale": np.where(np.asarray(sleeping, dtype=bool), _value("sleep", "drive_scale"), 1.0),
+        "hco3_offset_mmol_l": _value("acetazolamide", "hco3_offset_mmol_l") if _get(person, "acetazolamide") else 0.0,
+    }
+    if np.ndim(out["drive_scale"]) == 0:
+        out["drive_scale"] = float(out["drive_scale"])
+    qs = _home_shunt(person)
+    if qs is not None:
+        out["shunt_fraction"] = float(qs)
+    return out
+
+
+def people_kwargs(people, sleeping=None) -> dict:
+    """Keywords of :func:`altox.assess` for several people at once, shaped (people, 1).
+
+    Broadcasts against arrays shaped (people, samples) as :func:`altox.evaluate.evaluate_plan`
+    builds them. ``sleeping`` (shape (samples,)) gives ``drive_scale`` shaped (1, samples).
+    ``shunt_fraction`` is always present: fitted where a home SpO2 is known, else the age default.
+    """
+    from .gas_exchange import shunt_fraction_for_age
+
+    each = [person_kwargs(p) for p in people]
+    col = lambda key: np.array([e[key] for e in each], dtype=float)[:, None]  # noqa: E731
+    qs = np.array([e.get("shunt_fraction", float(shunt_fraction_for_age(e["age_y"]))) for e in each])[:, None]
+    drive = 1.0 if sleeping is None else np.where(np.asarray(sleeping, dtype=bool),
+                                                   _value("sleep", "drive_scale"), 1.0)[None, :]
+    return {"age_y": col("age_y"), "hb_g_dl": col("hb_g_dl"), "hypoxic_gain_scale": col("hypoxic_gain_scale"),
+            "hco3_offset_mmol_l": col("hco3_offset_mmol_l"), "shunt_fraction": qs, "drive_scale": drive}
+
+
+# -- fitness to fly ------------------------------------------------------------------------------
+def dillard_pao2_altitude_mmhg(pao2_ground_mmhg, fev1_pct_predicted):
+    """PaO2 at 8,000 ft predicted from ground PaO2 and FEV1 (Dillard et al. 1989).
+
+    ``PaO2Alt = 0.453 PaO2G + 0.386 FEV1%pred + 2.440`` (mmHg), fitted in 18 men with severe
+    COPD in a hypobaric chamber at 2,438 m (8,000 ft), r = 0.847 [Dillard1989]_.
+
+    Parameters
+    ----------
+    pao2_ground_mmhg : numeric
+        Arterial PO2 at (or near) sea level, breathing air. [mmHg]
+    fev1_pct_predicted : numeric
+        FEV1 in percent of predicted (31 % for 0.31). [%]
+
+    Returns
+    -------
+    numeric
+        Predicted PaO2 at 8,000 ft. [mmHg]
+
+    Examples
+    --------
+    The cohort's means (72.4 mmHg, 31 %) give 47.2 mmHg; measured 47.4 +- 6.
+
+    >>> round(float(dillard_pao2_altitude_mmhg(72.4, 31.0)), 1)
+    47.2
+    """
+    c = coefficients()["fitness_to_fly"]["dillard_1989"]
+    g = np.asarray(pao2_ground_mmhg, dtype=float)
+    f = np.asarray(fev1_pct_predicted, dtype=float)
+    out = c["pao2_ground_coefficient"] * g + c["fev1_pct_coefficient"] * f + c["intercept_mmhg"]
+    return out if np.ndim(out) else float(out)
+
+
+def _bts(pao2_mmhg=None, spo2_pct=None) -> dict:
+    from .units import MMHG_PER_KPA
+
+    b = coefficients()["fitness_to_fly"]["bts_2022"]
+    pao2_limit = b["pao2_kpa"] * MMHG_PER_KPA
+    checks = {}
+    if pao2_mmhg is not None:
+        checks["pao2"] = {"value_mmhg": float(pao2_mmhg), "value_kpa": float(pao2_mmhg) / MMHG_PER_KPA,
+                          "threshold_kpa": b["pao2_kpa"], "meets": bool(pao2_mmhg >= pao2_limit)}
+    if spo2_pct is not None:
+        checks["spo2"] = {"value_pct": float(spo2_pct), "threshold_pct": b["spo2_pct"],
+                          "meets": bool(spo2_pct >= b["spo2_pct"])}
+    met = all(c["meets"] for c in checks.values()) if checks else None
+    return {"checks": checks, "meets_thresholds": met,
+            "reading": (None if met is None else
+                        "at or above the thresholds for 'in-flight oxygen not required'" if met else
+                        "below a threshold: the statement advises a hypoxic challenge test with oxygen"),
+            "source": b["citation"].strip(), "applies_to": b["applies_to"]}
+
+
+def fitness_to_fly(*, pao2_ground_mmhg=None, fev1_fraction=None, spo2_ground=None,
+                   cabin_altitude_ft=8000.0, ground_elevation_ft=0.0, age_y=DEFAULT_AGE_Y,
+                   hb_g_dl=None) -> dict:
+    """Predicted PaO2 and SpO2 at a cabin altitude for a passenger with lung disease, against BTS 2022.
+
+    Two estimates, each compared with the thresholds the BTS clinical statement applies to a
+    hypoxic challenge test (PaO2 >= 6.6 kPa and SpO2 >= 85 %: in-flight oxygen not required)
+    [Coker2022]_:
+
+    * ``regression``: Dillard's equation [Dillard1989]_ (needs ground PaO2 and FEV1); it was
+      fitted at 8,000 ft only, so for another cabin altitude it is reported with a warning;
+    * ``model``: altox's chain with the person's venous admixture fitted to the ground PaO2
+      (or, failing that, the ground SpO2) at the ground elevation, then evaluated on acute
+      exposure at the cabin altitude (ISA pressure altitude).
+
+    Parameters
+    ----------
+    pao2_ground_mmhg : float, optional
+        Arterial PO2 on the ground breathing air. [mmHg]
+    fev1_fraction : float, optional
+        FEV1 as a fraction of predicted (0.45 for 45 %).
+    spo2_ground : float, optional
+        SpO2 on the ground breathing air, fraction 0-1.
+    cabin_altitude_ft : float
+        Cabin pressure altitude. [ft]
+    ground_elevation_ft : float
+        Pressure altitude where the ground values were measured. [ft]
+    age_y, hb_g_dl : float
+
+    Returns
+    -------
+    dict
+        ``regression`` and ``model`` (each with ``pao2_mmhg``, ``pao2_kpa``, ``sao2_pct`` where
+        known and ``bts``), ``notes`` and ``caution``.
+
+    Raises
+    ------
+    FactorError
+        No ground PaO2 or SpO2, values out of range, or a ground value the model cannot reach.
+    """
+    from .atmosphere import pressure_altitude_ft_to_mmhg
+    from .chain import assess
+    from .units import MMHG_PER_KPA
+
+    if pao2_ground_mmhg is None and spo2_ground is None:
+        raise FactorError("fitness to fly needs a ground PaO2 or a ground SpO2 breathing air.",
+                          field="ground_pao2", expected="a ground PaO2 (e.g. 62 mmHg) or SpO2 (e.g. 91 %)")
+    if pao2_ground_mmhg is not None and not 20.0 <= pao2_ground_mmhg <= 150.0:
+        raise FactorError(f"ground PaO2 {pao2_ground_mmhg:g} mmHg is outside 20-150 mmHg (breathing air).",
+                          field="ground_pao2", value=pao2_ground_mmhg, expected="20 to 150 mmHg")
+    if fev1_fraction is not None and not 0.0 < fev1_fraction <= 1.5:
+        raise FactorError(f"FEV1 {fev1_fraction:g} is not a fraction of predicted in (0, 1.5].",
+                          field="fev1", value=fev1_fraction, expected="a fraction such as 0.45")
+    if not -2000.0 <= cabin_altitude_ft <= 20000.0:
+        raise FactorError(f"cabin altitude {cabin_altitude_ft:g} ft is outside -2,000 to 20,000 ft.",
+                          field="cabin_altitude", value=cabin_altitude_ft, expected="-2,000 to 20,000 ft")
+    dill = coefficients()["fitness_to_fly"]["dillard_1989"]
+    notes = []
+    out = {"cabin_altitude_ft": float(cabin_altitude_ft), "ground_elevation_ft": float(ground_elevation_ft)}
+    if pao2_ground_mmhg is not None and fev1_fraction is not None:
+        p = dillard_pao2_altitude_mmhg(pao2_ground_mmhg, 100.0 * fev1_fraction)
+        out["regression"] = {"method": "Dillard 1989", "pao2_mmhg": p, "pao2_kpa": p / MMHG_PER_KPA,
+                             "valid_at_ft": dill["cabin_altitude_ft"], "bts": _bts(pao2_mmhg=p),
+                             "source": dill["citation"].strip()}
+        if abs(cabin_altitude_ft - dill["cabin_altitude_ft"]) > 500.0:
+            notes.append(f"Dillard's regression was fitted at {dill['cabin_altitude_ft']:,.0f} ft; "
+                         f"its value is for that altitude, not {cabin_altitude_ft:,.0f} ft.")
+        if abs(ground_elevation_ft) > 1000.0:
+            notes.append(f"Dillard's ground values were measured near sea level; these were taken at "
+                         f"{ground_elevation_ft:,.0f} ft.")
+        if fev1_fraction > 0.6:
+            notes.append("Dillard's cohort had severe COPD (FEV1 31 +- 10 % predicted); this FEV1 "
+                         "lies outside it.")
+    else:
+        out["regression"] = None
+        notes.append("No regression estimate: it needs both a ground PaO2 and an FEV1.")
+    pb_ground = float(pressure_altitude_ft_to_mmhg(ground_elevation_ft))
+    pb_cabin = float(pressure_altitude_ft_to_mmhg(cabin_altitude_ft))
+    if pao2_ground_mmhg is not None:
+        qs = _fit_at_pressure(pao2_ground_mmhg, "pao2", pb_ground, age_y, hb_g_dl)
+    else:
+        qs = _fit_at_pressure(spo2_ground, "sao2", pb_ground, age_y, hb_g_dl)
+    r = assess(pb_mmhg=pb_cabin, atmosphere="isa", f_ventilatory=0.0, f_renal=0.0, age_y=age_y,
+               hb_g_dl=hb_g_dl, shunt_fraction=qs)
+    out["model"] = {"method": "altox chain, venous admixture fitted to the ground value, acute exposure",
+                    "shunt_fraction": qs, "pao2_mmhg": r["arterial_po2_mmhg"],
+                    "pao2_kpa": r["arterial_po2_mmhg"] / MMHG_PER_KPA, "sao2_pct": r["sao2_pct"],
+                    "bts": _bts(pao2_mmhg=r["arterial_po2_mmhg"], spo2_pct=r["sao2_pct"])}
+    out["notes"] = notes + ["The BTS thresholds apply to a hypoxic challenge test; these are "
+                            "predictions, compared with them for guidance only."]
+    out["caution"] = ("Guidance only: not a hypoxic challenge test and not a clearance to fly. The "
+                      "passenger's respiratory physician and the airline's medical service decide.")
+    return out
+
+
+def _fit_at_pressure(target, kind, pb_mmhg, age_y, hb_g_dl):
+    """Shunt fraction fitted to a ground value measured at a pressure (ISA), awake, acclimatized there."""
+    from .atmosphere import altitude_for_pressure
+
+    alt = float(altitude_for_pressure(pb_mmhg, "isa"))
+    return float(fit_shunt_fraction(target, altitude_m=alt, atmosphere="isa", target_kind=kind,
+                                    age_y=age_y, hb_g_dl=hb_g_dl))
+
+
+def occupant_fitness_to_fly(occupant, cabin_altitude_ft, ground_elevation_ft=0.0) -> dict:
+    """:func:`fitness_to_fly` for an :class:`altox.profile.Occupant` (uses its ground values)."""
+    res = fitness_to_fly(pao2_ground_mmhg=occupant.ground_pao2_mmhg, fev1_fraction=occupant.fev1_fraction,
+                         spo2_ground=occupant.ground_spo2, cabin_altitude_ft=cabin_altitude_ft,
+                         ground_elevation_ft=ground_elevation_ft,
+                         age_y=occupant.age_y if occupant.age_y is not None else DEFAULT_AGE_Y,
+                         hb_g_dl=occupant.hemoglobin_g_dl)
+    res["name"] = occupant.name
+    res["lung_disease"] = occupant.lung_disease
+    return res

@@ -1,0 +1,267 @@
+"""The expected range: a Monte Carlo ensemble of people over a plan's timeline.
+
+People differ in their hypoxic ventilatory response, venous admixture (alveolar-arterial
+difference), hemoglobin-oxygen affinity (P50) and, when not given, hemoglobin.  altox draws an
+ensemble of ``n`` members for every person from those spreads (``altox/data/individual.yaml``,
+``population``), with a fixed seed and common random numbers (member ``i`` has the same
+standard-normal deviates for every person), runs the vectorised chain over
+people x members x samples, and reports percentiles (default 5th, 50th, 95th) of SaO2 per
+sample and per leg, beside the central value (the person's own factors, no spread).
+
+Memory is bounded by evaluating the timeline in chunks of samples (every chunk holds all
+members, so the percentiles are exact); a callback reports progress after each chunk.  Sleeping
+samples use the sleep drive (``sleep.drive_scale``).  Values are on air, like
+:func:`altox.evaluate.evaluate_plan`: planned oxygen is not applied.
+
+The spread of the hypoxic response is calibrated so that the ensemble SD of SpO2 at 4,250 m
+matches Botella de Maglia et al. (Med Intensiva 2008;32:277-281); the other spreads are from
+published SDs or memory (see the data file).  ``docs/individual.md`` lists the residuals
+against the rows not used.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .errors import OutOfRangeError
+from .individual import _get, _home_shunt, _value, coefficients, hvr_gain_scale
+
+__all__ = ["expected_range", "point_range", "draw_factors", "DEFAULT_SEED", "DEFAULT_PERCENTILES",
+           "DEFAULT_MEMBERS", "MAX_CHUNK_ELEMENTS"]
+
+DEFAULT_SEED = 20240601
+DEFAULT_PERCENTILES = (5.0, 50.0, 95.0)
+DEFAULT_MEMBERS = 1000
+MAX_CHUNK_ELEMENTS = 400_000   # people x members x samples evaluated at once
+_HB_LIMITS_G_DL = (7.0, 22.0)
+_TERTILES = {"low": 0, "normal": 1, "high": 2}
+
+
+def _check_args(n, percentiles):
+    if not isinstance(n, (int, np.integer)) or isinstance(n, bool) or not 10 <= n <= 1_000_000:
+        raise OutOfRangeError(f"ensemble size {n!r} is not a whole number from 10 to 1,000,000.",
+                              field="n", value=n, expected="10 to 1,000,000 members")
+    p = np.asarray(percentiles, dtype=float)
+    if p.ndim != 1 or p.size == 0 or np.any(~np.isfinite(p) | (p < 0) | (p > 100)):
+        raise OutOfRangeError(f"percentiles {percentiles!r} must be numbers from 0 to 100.",
+                              field="percentiles", value=percentiles, expected="e.g. (5, 50, 95)")
+    return p
+
+
+def _deviates(n, seed):
+    """Standard-normal deviates, shape (4, n): HVR, shunt, P50, Hb. The same for every person."""
+    return np.random.default_rng(seed).standard_normal((4, n))
+
+
+def draw_factors(person, z):
+    """Ensemble factors for one person from standard-normal deviates ``z`` (shape (4, n)).
+
+    Parameters
+    ----------
+    person : object or dict
+        As for :func:`altox.individual.person_kwargs`.
+    z : ndarray, shape (4, n)
+
+    Returns
+    -------
+    (central, members) : (dict, dict)
+        Keywords of :func:`altox.assess` without spread (scalars) and with it (arrays (n,)).
+        Keys: ``age_y``, ``hb_g_dl``, ``hypoxic_gain_scale``, ``hco3_offset_mmol_l``,
+        ``shunt_fraction``, ``p50_mmhg``.
+    """
+    from scipy.special import ndtr, ndtri
+
+    from .blood import STANDARD_P50_MMHG
+    from .gas_exchange import shunt_fraction_for_age
+    from .ventilation import model_coefficients
+
+    pop = coefficients()["population"]
+    sd_g = pop["hypoxic_gain_log_sd"]["value"]
+    age = float(_get(person, "age_y", default=40.0))
+    hb_given = _get(person, "hemoglobin_g_dl")
+    hb0 = float(hb_given if hb_given is not None else model_coefficients()["blood"]["hemoglobin_g_dl"]["value"])
+    qs_fit = _home_shunt(person)
+    qs0 = float(qs_fit if qs_fit is not None else shunt_fraction_for_age(age))
+    cat = _get(person, "hvr")
+    acz = _value("acetazolamide", "hco3_offset_mmol_l") if _get(person, "acetazolamide") else 0.0
+    zg = z[0]
+    if cat is not None:
+        k = _TERTILES[cat]
+        zg = ndtri((k + ndtr(zg)) / 3.0)  # the same member rank, inside that third
+    n = z.shape[1]
+    central = {"age_y": age, "hb_g_dl": hb0, "hypoxic_gain_scale": hvr_gain_scale(cat),
+               "hco3_offset_mmol_l": acz, "shunt_fraction": qs0, "p50_mmhg": STANDARD_P50_MMHG}
+    members = {
+        "age_y": np.full(n, age),
+        "hb_g_dl": (np.full(n, hb0) if hb_given is not None else
+                    np.clip(hb0 + pop["hemoglobin_sd_g_dl"]["value"] * z[3], *_HB_LIMITS_G_DL)),
+        "hypoxic_gain_scale": np.exp(sd_g * zg),
+        "hco3_offset_mmol_l": np.full(n, acz),
+        "shunt_fraction": np.clip(qs0 * np.exp(pop["shunt_fraction_log_sd"]["value"] * z[1]), 0.0,
+                                  _value("lung", "shunt_fraction_max")),
+        "p50_mmhg": STANDARD_P50_MMHG + pop["p50_sd_mmhg"]["value"] * z[2],
+    }
+    return central, members
+
+
+def point_range(altitude_m, *, person=None, days=0.0, sleeping=False, atmosphere="mountain",
+                n=DEFAULT_MEMBERS, seed=DEFAULT_SEED, percentiles=DEFAULT_PERCENTILES) -> dict:
+    """Central value and population percentiles of SaO2 at places, for one person.
+
+    Parameters
+    ----------
+    altitude_m : numeric
+        Altitudes (any shape). [m]
+    person : object or dict, optional
+        Individual factors (:func:`altox.individual.person_kwargs`); default the reference adult
+        drawn from the whole population.
+    days : numeric
+        Days at that altitude (acclimatization), broadcast with ``altitude_m``.
+    sleeping : bool
+    atmosphere : {'mountain', 'isa'}
+    n, seed, percentiles
+        Ensemble size, seed and percentiles (0-100).
+
+    Returns
+    -------
+    dict
+        ``central_sao2_pct`` (shape of ``altitude_m``), ``percentiles``,
+        ``sao2_pct_percentiles`` (shape (len(percentiles),) + that shape), ``mean_sao2_pct``,
+        ``sd_sao2_pct``.
+    """
+    from .chain import assess
+
+    p = _check_args(n, percentiles)
+    alt = np.asarray(altitude_m, dtype=float)
+    central, members = draw_factors(person or {}, _deviates(n, seed))
+    drive = _value("sleep", "drive_scale") if sleeping else 1.0
+    c = assess(alt, atmosphere=atmosphere, days=days, drive_scale=drive, **central)
+    shaped = {k: v.reshape((n,) + (1,) * alt.ndim) for k, v in members.items()}
+    r = assess(alt[None, ...], atmosphere=atmosphere, days=days, drive_scale=drive, **shaped)
+    s = np.asarray(r["sao2_pct"])
+    return {"central_sao2_pct": np.asarray(c["sao2_pct"]), "percentiles": p.tolist(),
+            "sao2_pct_percentiles": np.percentile(s, p, axis=0), "mean_sao2_pct": s.mean(axis=0),
+            "sd_sao2_pct": s.std(axis=0), "n": int(n), "seed": seed}
+
+
+def _people_of(plan, result):
+    """Plan people (Member/Occupant objects, which carry every factor) in the result's order."""
+    source = plan.party if plan.kind == "expedition" else plan.aboard
+    if result is None:
+        return list(source)
+    by_name = {m.name: m for m in source}
+    return [by_name.get(p.name, p) for p in result.people]
+
+
+def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
+                   percentiles=DEFAULT_PERCENTILES, progress=None,
+                   max_chunk_elements=MAX_CHUNK_ELEMENTS) -> dict:
+    """Expected SaO2 range of every person along a plan, by Monte Carlo.
+
+    Parameters
+    ----------
+    plan : ExpeditionPlan or FlightPlan
+        A loaded plan (:func:`altox.profile.load_plan`).
+    result : PlanResult, optional
+        :func:`altox.evaluate.evaluate_plan`'s result; only its list of people is used (so a
+        ``people_override`` carries over). Default: the plan's party or people aboard.
+    n : int
+        Ensemble members per person (10 to 1,000,000).
+    seed : int
+        Seed of the random generator; the same seed gives the same numbers.
+    percentiles : sequence of float
+        Percentiles to report, 0-100.
+    progress : callable, optional
+        ``progress(done, total)`` after each chunk, in samples of the timeline.
+    max_chunk_elements : int
+        Upper bound of people x members x samples evaluated at once (memory).
+
+    Returns
+    -------
+    dict
+        ``n``, ``seed``, ``percentiles``; ``time_h``, ``duration_h``, ``leg`` (1-based),
+        ``altitude_m``, ``sleeping`` per sample; ``people``: a list with, for the reference adult (first, the
+        whole population) and each person, ``name``, ``role``, ``factors`` (the central
+        keywords), ``central_sao2_pct`` (samples), ``sao2_pct_percentiles`` (percentiles x
+        samples) and ``legs`` (per leg: at the central value's lowest sample, the central value,
+        the percentiles and whether asleep; and the lowest of each percentile over the leg);
+        ``notes``.
+
+    Raises
+    ------
+    OutOfRangeError
+        Bad ``n`` or ``percentiles``.
+    """
+    from .atmosphere import barometric_pressure
+    from .chain import assess
+    from .gas_exchange import inspired_po2
+    from .timeline import expand
+    from .ventilation import acclimatization_history
+
+    p = _check_args(n, percentiles)
+    tl = expand(plan)
+    people = [None] + _people_of(plan, result)
+    names = ["reference adult"] + [x.name for x in people[1:]]
+    roles = ["reference"] + [(_get(x, "role") or "member") for x in people[1:]]
+    z = _deviates(n, seed)
+    drawn = [draw_factors(x or {}, z) for x in people]
+    n_people, n_samples = len(people), len(tl)
+    pb = np.asarray(tl.pb_mmhg, dtype=float)
+    if plan.kind == "expedition":
+        home = np.array([min(max(float(_get(x, "home_altitude_m", default=0.0) or 0.0), -500.0), 9000.0)
+                         if x is not None else 0.0 for x in people])
+        home_pio2 = np.asarray(inspired_po2(np.asarray(barometric_pressure(home, "mountain"))))
+        pio2 = np.broadcast_to(np.asarray(inspired_po2(pb)), (n_people, n_samples))
+        f_v, f_r = acclimatization_history(pio2, tl.duration_h, home_pio2)
+        atmosphere = "mountain"
+    else:
+        f_v = f_r = np.zeros((n_people, n_samples))
+        atmosphere = "isa"
+    drive = np.where(tl.sleeping, _value("sleep", "drive_scale"), 1.0)
+    alt = np.asarray(tl.altitude_m, dtype=float)
+
+    def col(dicts, key):
+        return np.array([d[key] for d in dicts], dtype=float)[:, None]
+
+    centrals = [d[0] for d in drawn]
+    cres = assess(np.broadcast_to(alt, (n_people, n_samples)), pb_mmhg=np.broadcast_to(pb, (n_people, n_samples)),
+                  atmosphere=atmosphere, f_ventilatory=f_v, f_renal=f_r, drive_scale=drive[None, :],
+                  **{k: col(centrals, k) for k in centrals[0]})
+    central = np.asarray(cres["sao2_pct"])
+    member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
+    out = np.empty((len(p), n_people, n_samples))
+    step = max(1, int(max_chunk_elements // max(1, n_people * n)))
+    for a in range(0, n_samples, step):
+        b = min(n_samples, a + step)
+        sl = slice(a, b)
+        r = assess(np.broadcast_to(alt[sl], (n_people, n, b - a)),
+                   pb_mmhg=np.broadcast_to(pb[sl], (n_people, n, b - a)), atmosphere=atmosphere,
+                   f_ventilatory=f_v[:, None, sl], f_renal=f_r[:, None, sl], drive_scale=drive[None, None, sl],
+                   **member_kw)
+        out[:, :, sl] = np.percentile(np.asarray(r["sao2_pct"]), p, axis=1)
+        if progress is not None:
+            progress(b, n_samples)
+
+    people_out = []
+    for j in range(n_people):
+        legs = []
+        for i, label in enumerate(tl.leg_labels):
+            idx = np.flatnonzero(tl.leg == i)
+            if idx.size == 0:
+                continue
+            w = idx[np.argmin(central[j, idx])]
+            legs.append({"leg": i + 1, "label": label, "time_h": float(tl.time_h[w]),
+                         "sleeping": bool(tl.sleeping[w]), "central_sao2_pct": float(central[j, w]),
+                         "sao2_pct_percentiles": [float(v) for v in out[:, j, w]],
+                         "lowest_sao2_pct_percentiles": [float(v) for v in out[:, j, idx].min(axis=1)]})
+        people_out.append({"name": names[j], "role": roles[j], "factors": dict(centrals[j]),
+                           "central_sao2_pct": central[j], "sao2_pct_percentiles": out[:, j, :], "legs": legs})
+    notes = [f"Expected range: {n:,} simulated people per person (seed {seed}), percentiles "
+             f"{', '.join(f'{v:g}' for v in p)} of SaO2; spreads of the hypoxic ventilatory response, "
+             "venous admixture, P50 and (when not given) hemoglobin, see docs/individual.md.",
+             "Sleeping samples use a lower chemoreflex drive; values are on air (planned oxygen not applied).",
+             "A population range for planning, not a diagnosis: people outside it exist."]
+    return {"n": int(n), "seed": seed, "percentiles": p.tolist(), "time_h": np.asarray(tl.time_h),
+            "duration_h": np.asarray(tl.duration_h), "leg": np.asarray(tl.leg) + 1,
+            "altitude_m": np.asarray(tl.altitude_m),
+            "sleeping": np.asarray(tl.sleeping), "people": people_out, "notes": notes}

@@ -1,0 +1,144 @@
+"""Individual factors and fitness to fly: published worked examples, the acetazolamide effect, properties."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from altox import individual as ind
+from altox.chain import assess
+from altox.units import MMHG_PER_KPA
+
+
+# -- fitness to fly: Dillard's regression and the BTS thresholds ---------------------------------
+def test_dillard_1989_worked_example_cohort_means():
+    # Dillard TA, Berg BW, Rajagopal KR, Dooley JW, Mehm WJ. Ann Intern Med 1989;111:362-367,
+    # abstract: PaO2Alt = 0.453 PaO2G + 0.386 FEV1%pred + 2.440; cohort PaO2G 72.4 mmHg, FEV1 31 %,
+    # measured PaO2Alt 47.4 +- 6 mmHg (n = 18) at 2,438 m (8,000 ft).
+    predicted = ind.dillard_pao2_altitude_mmhg(72.4, 31.0)
+    assert predicted == pytest.approx(0.453 * 72.4 + 0.386 * 31.0 + 2.440, abs=1e-9)
+    assert predicted == pytest.approx(47.2, abs=0.05)
+    # against the measured cohort mean: within its standard error (6 / sqrt(18) = 1.4 mmHg)
+    assert abs(predicted - 47.4) < 6.0 / np.sqrt(18)
+
+
+def test_dillard_is_vectorised():
+    out = ind.dillard_pao2_altitude_mmhg(np.array([60.0, 72.4, 90.0]), np.array([20.0, 31.0, 60.0]))
+    assert out.shape == (3,) and np.all(np.diff(out) > 0)
+
+
+def test_bts_2022_thresholds_in_both_units():
+    # Coker RK et al. BTS Clinical Statement on air travel. Thorax 2022;77:329-350, hypoxic
+    # challenge table: PaO2 >= 6.6 kPa (>= 50 mm Hg) and SpO2 >= 85 %: in-flight oxygen not required.
+    limit_mmhg = 6.6 * MMHG_PER_KPA
+    assert limit_mmhg == pytest.approx(49.5, abs=0.05)
+    assert ind._bts(pao2_mmhg=limit_mmhg + 0.01, spo2_pct=85.0)["meets_thresholds"] is True
+    assert ind._bts(pao2_mmhg=limit_mmhg - 0.01)["meets_thresholds"] is False
+    assert ind._bts(spo2_pct=84.9)["meets_thresholds"] is False
+
+
+def test_fitness_to_fly_reports_both_estimates_and_cautions():
+    r = ind.fitness_to_fly(pao2_ground_mmhg=72.4, fev1_fraction=0.31, age_y=68.0)
+    assert r["regression"]["pao2_mmhg"] == pytest.approx(47.2, abs=0.05)
+    assert r["regression"]["bts"]["meets_thresholds"] is False          # 6.29 kPa < 6.6
+    assert 40.0 < r["model"]["pao2_mmhg"] < 70.0 and "sao2_pct" in r["model"]
+    assert "not a clearance" in r["caution"]
+    far = ind.fitness_to_fly(pao2_ground_mmhg=72.4, fev1_fraction=0.31, cabin_altitude_ft=5000.0)
+    assert any("8,000 ft" in n for n in far["notes"])
+
+
+def test_fitness_to_fly_refuses_missing_or_absurd_input():
+    with pytest.raises(ind.FactorError):
+        ind.fitness_to_fly()
+    with pytest.raises(ind.FactorError):
+        ind.fitness_to_fly(pao2_ground_mmhg=400.0)
+    with pytest.raises(ind.FactorError):
+        ind.fitness_to_fly(spo2_ground=0.999, ground_elevation_ft=0.0, age_y=80.0)  # above a perfect lung
+
+
+def test_fitted_shunt_reproduces_the_target():
+    qs = ind.fit_shunt_fraction(np.array([0.93, 0.95]), altitude_m=100.0, age_y=60.0)
+    r = assess(np.array([100.0, 100.0]), atmosphere="mountain", days=3650.0, age_y=60.0, shunt_fraction=qs)
+    assert r["sao2_pct"] == pytest.approx([93.0, 95.0], abs=0.01)
+
+
+# -- person -> assess keywords ------------------------------------------------------------------
+def test_person_kwargs_factors():
+    base = ind.person_kwargs({})
+    assert base == {"age_y": 40.0, "hb_g_dl": 14.5, "hypoxic_gain_scale": 1.0, "drive_scale": 1.0,
+                    "hco3_offset_mmol_l": 0.0}
+    assert ind.person_kwargs({"acetazolamide": True})["hco3_offset_mmol_l"] == -4.0
+    assert ind.person_kwargs({"hvr": "low"})["hypoxic_gain_scale"] < 1.0 < ind.person_kwargs({"hvr": "high"})["hypoxic_gain_scale"]
+    assert ind.person_kwargs({}, sleeping=True)["drive_scale"] == pytest.approx(0.657)
+    assert "shunt_fraction" in ind.person_kwargs({"home_spo2": 0.94, "age_y": 50.0})
+    with pytest.raises(ind.FactorError):
+        ind.hvr_gain_scale("medium")
+
+
+def test_people_kwargs_broadcast_with_samples():
+    from altox.profile import load_plan
+
+    plan = load_plan("profiles/trek-kharsang.yaml")
+    kw = ind.people_kwargs(plan.party, sleeping=np.array([True, False, False]))
+    assert kw["age_y"].shape == (4, 1) and kw["drive_scale"].shape == (1, 3)
+    r = assess(np.full((4, 3), 4000.0), atmosphere="mountain", days=2.0, **kw)
+    assert r["sao2_pct"].shape == (4, 3)
+    assert np.all(r["sao2_pct"][:, 0] < r["sao2_pct"][:, 1])          # asleep is lower
+
+
+# -- acetazolamide: its effect on ventilation against the published size ------------------------------
+def _acetazolamide_ratio():
+    # Rapid ascent from sea level to 4,394 m in about 33.5 h (Larson et al., abstract): 1.4 days.
+    kw = dict(atmosphere="mountain", days=33.5 / 24.0)
+    placebo = assess(4394.0, **kw)
+    drug = assess(4394.0, hco3_offset_mmol_l=ind.person_kwargs({"acetazolamide": True})["hco3_offset_mmol_l"], **kw)
+    return placebo, drug
+
+
+def test_acetazolamide_raises_ventilation_lowers_paco2_and_bicarbonate():
+    placebo, drug = _acetazolamide_ratio()
+    assert drug["ventilation_ratio"] > placebo["ventilation_ratio"]
+    assert drug["arterial_pco2_mmhg"] < placebo["arterial_pco2_mmhg"] - 2.0
+    assert drug["arterial_po2_mmhg"] > placebo["arterial_po2_mmhg"] + 2.0
+    assert drug["arterial_ph"] < placebo["arterial_ph"]                   # a metabolic acidosis
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "Known gap, not tuned away: the model's ventilation rises 13 % with a -4 mmol/L bicarbonate "
+    "shift; Larson et al. (Mt Rainier) report +47 % minute ventilation on the summit. See "
+    "docs/individual.md."))
+def test_acetazolamide_ventilation_against_larson_mt_rainier():
+    # Larson EB et al., acetazolamide prophylaxis during rapid, active ascent of Mt Rainier
+    # (4,394 m), abstract (scilit): summit minute ventilation 24.9 +- 2.0 vs 16.9 +- 3.8 L/min
+    # (acetazolamide, n = 31; placebo, n = 33): ratio 1.47. Tolerance: +-0.15 on the ratio
+    # (the spread of the two means if '+-' is an SD, ~0.06, widened for the summit's exertion).
+    placebo, drug = _acetazolamide_ratio()
+    ratio = drug["ventilation_ratio"] / placebo["ventilation_ratio"]
+    assert ratio == pytest.approx(24.9 / 16.9, abs=0.15)
+
+
+# -- properties -------------------------------------------------------------------------------------
+_alt = st.floats(0.0, 6500.0)
+_days = st.floats(0.0, 30.0)
+
+
+@settings(max_examples=40, deadline=None)
+@given(alt=_alt, days=_days, hb_low=st.floats(7.0, 20.0), d_hb=st.floats(0.01, 5.0),
+       age=st.floats(18.0, 85.0), acz=st.booleans())
+def test_lower_hemoglobin_never_raises_oxygen_content(alt, days, hb_low, d_hb, age, acz):
+    kw = dict(atmosphere="mountain", days=days, age_y=age, hco3_offset_mmol_l=-4.0 if acz else 0.0)
+    low = assess(np.array([alt]), hb_g_dl=hb_low, **kw)
+    high = assess(np.array([alt]), hb_g_dl=hb_low + d_hb, **kw)
+    assert low["o2_content_ml_dl"][0] <= high["o2_content_ml_dl"][0] + 1e-9
+
+
+@settings(max_examples=40, deadline=None)
+@given(alt=_alt, days=_days, age=st.floats(18.0, 85.0), d_age=st.floats(0.5, 40.0), hb=st.floats(9.0, 19.0),
+       sleeping=st.booleans())
+def test_older_age_never_lowers_alveolar_arterial_difference(alt, days, age, d_age, hb, sleeping):
+    kw = dict(atmosphere="mountain", days=days, hb_g_dl=hb, drive_scale=0.657 if sleeping else 1.0)
+    young = assess(np.array([alt]), age_y=age, **kw)
+    old = assess(np.array([alt]), age_y=age + d_age, **kw)
+    assert old["alveolar_arterial_mmhg"][0] >= young["alveolar_arterial_mmhg"][0] - 1e-6
