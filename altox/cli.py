@@ -31,7 +31,8 @@ def run_guarded(func):
     except typer.Exit:
         raise
     except ProfileError as exc:
-        _fail(f"{exc.location()}: {exc.message}")
+        where = exc.location()
+        _fail(exc.message if exc.message.startswith(exc.path or "\0") else f"{where}: {exc.message}")
     except AltoxError as exc:
         _fail(exc.message)
     except Exception as exc:  # a bug, not bad input
@@ -139,8 +140,9 @@ def point(
     run_guarded(body)
 
 
-def _load_and_evaluate(path: str, rules: list[str]):
-    from .evaluate import evaluate_plan
+def _load_and_evaluate(path: str, rules: list[str], members: int = 0, seed: Optional[int] = None):
+    """Load a plan, apply --rules, evaluate it and attach the reviews; returns (plan, result)."""
+    from .evaluate import evaluate_plan, plan_extras
     from .profile import load_plan
 
     plan = load_plan(path)
@@ -149,7 +151,15 @@ def _load_and_evaluate(path: str, rules: list[str]):
         files = [r for r in rules if _is_file(r)]
         if files:
             plan = plan.model_copy(update={"rule_file": str(__import__("pathlib").Path(files[0]).resolve())})
-    return evaluate_plan(plan)
+    result = evaluate_plan(plan)
+    from .cli_people import _progress_callback
+
+    update, close = _progress_callback()
+    try:
+        result.extras = plan_extras(plan, result, members=members, seed=seed, progress=update)
+    finally:
+        close()
+    return plan, result
 
 
 def _is_file(text: str) -> bool:
@@ -162,17 +172,44 @@ def plan(
     json_out: bool = typer.Option(False, "--json", help="Print JSON instead of tables."),
     csv_out: bool = typer.Option(False, "--csv", help="Print CSV, one row per leg."),
     timeline: bool = typer.Option(False, "--timeline", help="With --json or --csv: include every time sample."),
-    feet: bool = typer.Option(False, "--feet", help="Show expedition altitudes in feet."),
+    feet: bool = typer.Option(False, "--feet", help="Show expedition altitudes in feet (tables, chart, report)."),
     rules: list[str] = typer.Option([], "--rules", help="Rule-set id or your own rule file; repeat for "
                                                         "several. Replaces the plan's own list."),
+    chart: Optional[str] = typer.Option(None, "--chart", help="Also draw the plan's chart to this file "
+                                                               "(.png, .svg or .pdf)."),
+    report: Optional[str] = typer.Option(None, "--report", help="Also write a self-contained HTML report "
+                                                                 "(.html) to share."),
+    force: bool = typer.Option(False, "--force", help="Replace an existing --chart or --report file."),
+    members: int = typer.Option(200, "--members", help="Simulated people per person for the expected "
+                                                       "SaO2 range (0 skips it)."),
+    seed: Optional[int] = typer.Option(None, "--seed", help="Seed of the expected range (default fixed)."),
 ):
     """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
     from . import render
 
-    results, failed = [], []
+    outputs = [(opt, path) for opt, path in (("--chart", chart), ("--report", report)) if path]
+    if outputs:
+        def check_outputs():
+            from .charts import CHART_FORMATS
+            from .errors import AltoxError
+            from .report import REPORT_SUFFIXES, check_output
+
+            if len(files) != 1:
+                raise AltoxError(f"{outputs[0][0]} draws one plan; got {len(files)} files (run altox plan "
+                                 "once per plan)", field=outputs[0][0])
+            for opt, path in outputs:
+                check_output(path, option=opt, force=force, inputs=files,
+                             suffixes=tuple(CHART_FORMATS) if opt == "--chart" else REPORT_SUFFIXES)
+        run_guarded(check_outputs)
+
+    if not 0 <= members <= 100_000:
+        _fail(f"--members: {members} is outside the accepted range; expected 0 to 100,000.")
+    results, plans, failed = [], [], []
     for path in files:
         try:
-            results.append(run_guarded(lambda: _load_and_evaluate(path, rules)))
+            plan_obj, result = run_guarded(lambda: _load_and_evaluate(path, rules, members, seed))
+            results.append(result)
+            plans.append(plan_obj)
         except typer.Exit as exc:
             if exc.exit_code == 0:
                 raise
@@ -191,6 +228,20 @@ def plan(
             for part in render.plan_renderables(r, feet=feet):
                 console.print(part)
             console.print()
+    if outputs and results:
+        def write_outputs():
+            from .charts import applied_rule_sets, save_chart
+            from .report import write_report
+
+            rule_files = [r for r in rules if _is_file(r)]
+            rule_sets, _missing = applied_rule_sets(results[0], rule_files)
+            if chart:
+                save_chart(results[0], chart, feet=feet, rule_sets=rule_sets)
+                typer.echo(f"altox: wrote chart {chart}", err=True)
+            if report:
+                write_report(results[0], report, plan=plans[0], feet=feet, rule_sets=rule_sets)
+                typer.echo(f"altox: wrote report {report}", err=True)
+        run_guarded(write_outputs)
     if failed:
         typer.echo(f"Error: {len(failed)} of {len(files)} plan(s) failed: {', '.join(failed)}", err=True)
         raise typer.Exit(2)
@@ -226,6 +277,11 @@ def schema():
 
         typer.echo(json.dumps(plan_json_schema(), indent=2))
     run_guarded(body)
+
+
+# commands in their own modules register themselves on `app`
+from . import cli_oxygen  # noqa: E402,F401  o2-target, o2-flow, cylinders, room, decompress
+from . import cli_people  # noqa: E402,F401  readings, range, fitness-to-fly
 
 
 def main() -> None:  # console-script entry point

@@ -83,6 +83,34 @@ def _pct(x):
     return "-" if x is None else f"{x:.0f} %"
 
 
+def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
+    """Rich renderables of a readings review (table, flag lines, notes); the caller adds the caution."""
+    from rich.table import Table
+    from rich.text import Text
+
+    table = Table(title=f"Readings: {plan_name}", title_justify="left", pad_edge=False)
+    for col in ("Day", "Time", "Member", "Alt m", "SpO2", "Expected (range)", "HR /min", "LLS", "Flags"):
+        table.add_column(col)
+    for r in rows:
+        e = r["expected_sao2_pct"]
+        ll = r["lake_louise"]
+        lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
+        table.add_row(str(r["day"]), f"{int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}", r["member"],
+                      f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
+                      f"{e['central']:.0f} % ({e['low']:.0f}-{e['high']:.0f})",
+                      "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
+                      lls, ", ".join(f["code"] for f in r["flags"]) or "-")
+    out = [table if rows else Text("No observations in this plan.")]
+    for r in rows:
+        for f in r["flags"]:
+            line = f"Day {r['day']} {r['member']}: {f['message']}"
+            if "recommendation" in f:
+                line += f" Recommendation: {f['recommendation']}"
+            out.append(Text(f"- {line} [{f['source']}]"))
+    out += [Text(n, style="dim") for n in notes]
+    return out
+
+
 @app.command("readings")
 def readings_cmd(
     file: str = typer.Argument(..., help="Expedition plan (YAML) with 'observations'."),
@@ -104,32 +132,12 @@ def readings_cmd(
                                              "caution": CAUTION + " " + GENERAL}), indent=2))
             return
         from rich.console import Console
-        from rich.table import Table
 
         from .render import caution_panel
 
         console = Console()
-        table = Table(title=f"Readings: {plan.name}", title_justify="left")
-        for col in ("Day", "Time", "Member", "Alt m", "SpO2", "Expected (range)", "HR /min", "LLS", "Flags"):
-            table.add_column(col)
-        for r in rows:
-            e = r["expected_sao2_pct"]
-            ll = r["lake_louise"]
-            lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
-            table.add_row(str(r["day"]), f"{int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}", r["member"],
-                          f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
-                          f"{e['central']:.0f} % ({e['low']:.0f}-{e['high']:.0f})",
-                          "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
-                          lls, ", ".join(f["code"] for f in r["flags"]) or "-")
-        console.print(table if rows else "No observations in this plan.")
-        for r in rows:
-            for f in r["flags"]:
-                line = f"Day {r['day']} {r['member']}: {f['message']}"
-                if "recommendation" in f:
-                    line += f" Recommendation: {f['recommendation']}"
-                console.print(f"- {line} [{f['source']}]", highlight=False)
-        for n in ranges["notes"]:
-            console.print(n, style="dim", highlight=False)
+        for part in readings_renderables(plan.name, rows, ranges["notes"]):
+            console.print(part)
         console.print(CAUTION, highlight=False)
         console.print(caution_panel())
 

@@ -50,6 +50,7 @@ class PlanResult:
     findings: list                # rules.checker.Finding
     summary: dict
     notes: list[str] = field(default_factory=list)
+    extras: dict = field(default_factory=dict)   # expected ranges, readings, oxygen and decompression reviews
 
 
 def _people(plan) -> list[Person]:
@@ -116,8 +117,6 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     everyone = [Person(REFERENCE_PERSON["name"], "reference", REFERENCE_PERSON["age_y"],
                        REFERENCE_PERSON["hemoglobin_g_dl"])] + list(people)
     n = len(tl)
-    ages = np.array([p.age_y for p in everyone])[:, None]
-    hbs = np.array([p.hemoglobin_g_dl for p in everyone])[:, None]
     pb = np.broadcast_to(np.asarray(tl.pb_mmhg, dtype=float), (len(everyone), n))
     if plan.kind == "expedition":
         home_pb = np.array([float(barometric_pressure(min(max(p.home_altitude_m, -500.0), 9000.0), "mountain"))
@@ -126,9 +125,10 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         f_v, f_r = acclimatization_history(pio2, tl.duration_h, np.asarray(inspired_po2(home_pb)))
     else:
         f_v = f_r = np.zeros((len(everyone), n))
+    factors = _factor_keywords(plan, everyone, people_override is None, tl)
     res = assess(np.broadcast_to(tl.altitude_m, (len(everyone), n)), pb_mmhg=pb,
                  atmosphere="isa" if plan.kind == "flight" else "mountain",
-                 f_ventilatory=f_v, f_renal=f_r, age_y=ages, hb_g_dl=hbs)
+                 f_ventilatory=f_v, f_renal=f_r, **factors)
 
     dt = np.asarray(tl.duration_h, dtype=float)
     floor = plan.dose_floor_m
@@ -148,7 +148,9 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         if not mask.any():
             continue
         idx = np.flatnonzero(mask)
-        worst = idx[np.argmin(ref["sao2_pct"][idx])]
+        awake = idx[~tl.sleeping[idx]]
+        asleep = idx[tl.sleeping[idx]]
+        worst = (awake if awake.size else idx)[np.argmin(ref["sao2_pct"][awake if awake.size else idx])]
         leg = {
             "leg": i + 1,
             "label": label,
@@ -161,6 +163,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         }
         for k in PHYSIOLOGY_KEYS:
             leg[k] = float(ref[k][worst])
+        leg["night_sao2_pct"] = float(ref["sao2_pct"][asleep].min()) if asleep.size else None
         leg["hypoxic_dose_kmh"] = float(dose_kmh[idx[-1]])
         for lvl in levels:
             leg[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][idx[-1]])
@@ -201,11 +204,13 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         members.append(entry)
         member_samples[p.name] = {k: res[k][j] for k in ("sao2_pct", "arterial_po2_mmhg", "o2_content_ml_dl")}
 
-    worst_leg = min(legs, key=lambda leg: leg["sao2_pct"])
+    worst_leg = min(legs, key=lambda leg: leg["sao2_pct"] if leg["night_sao2_pct"] is None
+                    else min(leg["sao2_pct"], leg["night_sao2_pct"]))
     broken = [f for f in findings if f.status in ("required-not-planned", "limit-exceeded")]
     summary = {
         "worst_leg": worst_leg["leg"], "worst_leg_label": worst_leg["label"],
-        "worst_sao2_pct": worst_leg["sao2_pct"],
+        "worst_sao2_pct": worst_leg["sao2_pct"] if worst_leg["night_sao2_pct"] is None
+        else min(worst_leg["sao2_pct"], worst_leg["night_sao2_pct"]),
         "total_hours": float(dt.sum()),
         "hypoxic_dose_kmh": float(dose_kmh[-1]), "dose_floor_m": float(floor),
         "rules_broken": len(broken), "rules_touched": len(findings),
@@ -222,7 +227,10 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
                **ref, "hypoxic_dose_kmh": dose_kmh}
     notes = ["Physiology on air for a resting reference adult (age 40, Hb 14.5 g/dL) unless a member is "
              "named; planned supplemental oxygen is flagged, not applied.",
-             "Per-leg values are those of the worst sample (lowest SaO2) in the leg."]
+             "Per-leg values are those of the worst awake sample (lowest SaO2) in the leg; 'night' is the "
+             "lowest while asleep, with the lower chemoreflex drive of sleep (docs/individual.md).",
+             "Members' values include their age, hemoglobin, ventilatory response category, acetazolamide, "
+             "and a venous admixture fitted to a stated home or ground SpO2/PaO2 where given."]
     if plan.kind == "expedition":
         notes.append("Acclimatization carries across days from each person's home altitude; "
                      "mountain model atmosphere unless a day says otherwise.")
@@ -230,6 +238,50 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         notes.append("A flight is acute exposure; cabin altitudes are pressure altitudes (ISA).")
     return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
                       samples, member_samples, members, findings, summary, notes)
+
+
+def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, progress=None) -> dict:
+    """The reviews that sit beside the per-leg tables: expected ranges (people), readings, oxygen, decompression.
+
+    Each is a plain mapping (arrays as numpy); :mod:`altox.render` presents them. ``members``
+    simulated people per person for the expected range (0 skips it).
+    """
+    from .oxygen_plan import decompression_review, oxygen_review
+    from .population import DEFAULT_SEED, expected_range
+    from .readings import review
+
+    extras = {"oxygen": oxygen_review(plan, result), "decompression": decompression_review(plan, result)}
+    people = plan.party if plan.kind == "expedition" else plan.aboard
+    if members and people:
+        extras["ranges"] = expected_range(plan, result, n=members, seed=DEFAULT_SEED if seed is None else seed,
+                                          progress=progress)
+        if plan.kind == "expedition" and getattr(plan, "observations", None):
+            extras["readings"] = review(plan, result, extras["ranges"])
+    return extras
+
+
+def _factor_keywords(plan, everyone, from_plan: bool, tl) -> dict:
+    """assess keywords for the reference adult and each person, shaped (people, 1) or (people, samples)."""
+    from .individual import people_kwargs
+
+    sources = [{"age_y": REFERENCE_PERSON["age_y"], "hemoglobin_g_dl": REFERENCE_PERSON["hemoglobin_g_dl"]}]
+    if from_plan and plan.kind == "expedition":
+        sources += list(plan.party)
+    elif from_plan:
+        ground_m = float(plan.departure_elevation_m)
+        for o in plan.aboard:
+            entry = {"age_y": o.age_y, "hemoglobin_g_dl": o.hemoglobin_g_dl}
+            if o.ground_spo2 is not None:
+                entry.update(home_spo2=o.ground_spo2, home_altitude_m=ground_m)
+            sources.append(entry)
+    else:
+        sources += [{"age_y": p.age_y, "hemoglobin_g_dl": p.hemoglobin_g_dl,
+                     "acetazolamide": p.acetazolamide, "home_altitude_m": p.home_altitude_m} for p in everyone[1:]]
+    sources = [{k: v for k, v in src.items() if v is not None} if isinstance(src, dict) else src for src in sources]
+    kw = people_kwargs(sources, sleeping=tl.sleeping if plan.kind == "expedition" else None)
+    return {"age_y": kw["age_y"], "hb_g_dl": kw["hb_g_dl"], "hypoxic_gain_scale": kw["hypoxic_gain_scale"],
+            "drive_scale": kw["drive_scale"], "hco3_offset_mmol_l": kw["hco3_offset_mmol_l"],
+            "shunt_fraction": kw["shunt_fraction"]}
 
 
 def _risk(plan, person, rule_sets):

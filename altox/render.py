@@ -175,14 +175,20 @@ def plan_renderables(result, *, feet: bool = False):
                       f"{leg['inspired_po2_mmhg']:.0f}", f"{leg['hypoxic_dose_kmh']:.1f}")
     out.append(where)
 
-    phys = Table(title="Expected physiology at rest, on air (reference adult, worst moment of each leg)",
+    phys = Table(title="Expected physiology at rest, on air (reference adult, worst awake moment of each leg)",
                  title_justify="left", pad_edge=False)
-    for name in ("Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %", "CaO2 mL/dL", "Flags"):
+    night = result.kind == "expedition"
+    names = ["Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %"]
+    names += (["Night SaO2 %"] if night else []) + ["CaO2 mL/dL", "Flags"]
+    for name in names:
         phys.add_column(name, justify="left" if name == "Flags" else "right")
     for leg in result.legs:
-        phys.add_row(str(leg["leg"]), f"{leg['alveolar_pco2_mmhg']:.0f}", f"{leg['alveolar_po2_mmhg']:.0f}",
-                     f"{leg['arterial_po2_mmhg']:.0f}", f"{leg['arterial_po2_mmhg'] * KPA_PER_MMHG:.1f}",
-                     f"{leg['sao2_pct']:.0f}", f"{leg['o2_content_ml_dl']:.1f}", _flag_text(result, leg))
+        row = [str(leg["leg"]), f"{leg['alveolar_pco2_mmhg']:.0f}", f"{leg['alveolar_po2_mmhg']:.0f}",
+               f"{leg['arterial_po2_mmhg']:.0f}", f"{leg['arterial_po2_mmhg'] * KPA_PER_MMHG:.1f}",
+               f"{leg['sao2_pct']:.0f}"]
+        if night:
+            row.append("-" if leg["night_sao2_pct"] is None else f"{leg['night_sao2_pct']:.0f}")
+        phys.add_row(*row, f"{leg['o2_content_ml_dl']:.1f}", _flag_text(result, leg))
     out.append(phys)
     out.append(Text(FLAG_LEGEND))
 
@@ -220,8 +226,43 @@ def plan_renderables(result, *, feet: bool = False):
             mark = FLAG_MET if f.status == "required-planned" else FLAG_BROKEN
             g.append(f"{mark}{k + 1} [{f.rule_set_id} {f.section}] {f.message} Source: {f.citation}")
         out.append(Text("\n".join(g)))
+    out.extend(extras_renderables(result))
     out.append(Text("Notes\n" + "\n".join(f"- {n}" for n in result.notes)))
     out.append(caution_panel())
+    return out
+
+
+def extras_renderables(result) -> list:
+    """Expected ranges, readings, oxygen and decompression sections of a plan (no caution: the caller's)."""
+    from rich.table import Table
+    from rich.text import Text
+
+    out = []
+    ranges = result.extras.get("ranges")
+    if ranges and ranges.get("people"):
+        lo_p, hi_p = ranges["percentiles"][0], ranges["percentiles"][-1]
+        table = Table(title=f"Expected SaO2 by person: central and {lo_p:g}th-{hi_p:g}th percentile "
+                            f"({ranges['n']} simulated people each)", title_justify="left", pad_edge=False)
+        for name in ("Name", "Worst leg", "Central %", "Range %", "Asleep"):
+            table.add_column(name, justify="left" if name == "Name" else "right")
+        for person in ranges["people"]:
+            worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
+            pct = worst["sao2_pct_percentiles"]
+            table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
+                          f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no")
+        out.append(table)
+    if result.extras.get("readings") is not None:
+        from .cli_people import readings_renderables
+
+        out.extend(readings_renderables(result.name, result.extras["readings"], []))
+    ox, dec = result.extras.get("oxygen"), result.extras.get("decompression")
+    if ox or dec:
+        from .render_oxygen import decompression_review_renderables, oxygen_review_renderables
+
+        if ox:
+            out.extend(oxygen_review_renderables(ox, with_caution=False))
+        if dec:
+            out.extend(decompression_review_renderables(dec, with_caution=False))
     return out
 
 
@@ -240,6 +281,13 @@ def plan_to_dict(result, *, timeline: bool = False) -> dict:
         "members": result.members, "findings": [asdict(f) for f in result.findings],
         "notes": result.notes, "caution": CAUTION,
     }
+    for key, value in result.extras.items():
+        if key == "ranges" and not timeline:   # per-sample percentiles only with --timeline
+            value = {k: v for k, v in value.items() if k not in ("time_h", "duration_h", "leg", "altitude_m",
+                                                                 "sleeping")}
+            value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles")}
+                               for p in value["people"]]
+        data[key] = value
     if timeline:
         n = len(result.samples["time_h"])
         data["timeline"] = [{k: v[i] for k, v in result.samples.items()} for i in range(n)]

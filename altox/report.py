@@ -1,0 +1,595 @@
+"""A self-contained HTML report of an evaluated plan, and safe writing of output files.
+
+The report is one HTML file: inline CSS, the chart as inline SVG (:mod:`altox.charts`), no
+scripts, no fonts, images or style sheets fetched from anywhere, and a Content-Security-Policy
+that tells the browser to fetch nothing even if something slipped in.  It opens with the
+guidance caution, before any number, and ends with it.  Layout is one column that fits the
+printable width of A4 and US Letter; ``@page`` and print rules keep tables and the chart
+whole where they can.
+
+No physics here: numbers come from :class:`altox.evaluate.PlanResult`; guidance texts and
+sources from the rule sets (:mod:`altox.rules`).
+"""
+
+from __future__ import annotations
+
+import html
+import os
+import re
+import tempfile
+from pathlib import Path
+
+from .errors import AltoxError
+from .render import CAUTION, FLAG_BROKEN, FLAG_LEGEND, FLAG_MET, KPA_PER_MMHG, _fmt_h
+
+REPORT_SUFFIXES = (".html", ".htm")
+#: the Content-Security-Policy of every report: inline styles only, nothing fetched, no scripts
+CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src 'none'; base-uri 'none'; form-action 'none'"
+_FT_PER_M = 1.0 / 0.3048
+
+_CSS = """
+:root { --ink: #1b2430; --muted: #55606d; --line: #c8ced6; --zebra: #f4f6f8;
+        --caution-bg: #fff6e5; --caution-edge: #7a4a00; --broken: #9c2f2f; }
+* { box-sizing: border-box; }
+html { -webkit-text-size-adjust: 100%; }
+body { margin: 0 auto; max-width: 58rem; padding: 1.2rem 1rem 2rem; color: var(--ink); background: #fff;
+       font: 15px/1.45 system-ui, "Segoe UI", "DejaVu Sans", "Liberation Sans", Arial, sans-serif; }
+h1 { font-size: 1.45rem; margin: 0 0 .2rem; line-height: 1.25; overflow-wrap: anywhere; }
+h2 { font-size: 1.12rem; margin: 1.6rem 0 .5rem; padding-bottom: .15rem; border-bottom: 2px solid var(--ink); }
+h3 { font-size: 1rem; margin: 1rem 0 .3rem; }
+p, li, dd { overflow-wrap: anywhere; }
+.meta { color: var(--muted); margin: 0 0 .8rem; font-size: .9rem; }
+.caution { border: 2px solid var(--caution-edge); border-left-width: 10px; background: var(--caution-bg);
+           padding: .6rem .9rem; margin: .6rem 0 1rem; }
+.caution h2 { border: 0; margin: 0 0 .25rem; padding: 0; font-size: 1.05rem; letter-spacing: .02em; }
+.caution p { margin: 0; font-size: .95rem; }
+dl.summary { display: grid; grid-template-columns: max-content 1fr; gap: .2rem 1rem; margin: 0; }
+dl.summary dt { font-weight: 600; }
+dl.summary dd { margin: 0; }
+figure { margin: .6rem 0 0; }
+figure svg { display: block; width: 100%; height: auto; }
+figcaption { font-size: .85rem; color: var(--muted); margin-top: .3rem; }
+table { border-collapse: collapse; width: 100%; font-size: .82rem; margin: .3rem 0 .4rem;
+        font-variant-numeric: tabular-nums; }
+caption { text-align: left; font-weight: 600; padding: .2rem 0; caption-side: top; }
+th, td { border-bottom: 1px solid var(--line); padding: .22rem .35rem; vertical-align: top; overflow-wrap: break-word; }
+th { text-align: left; background: #e9edf1; font-weight: 600; }
+td.n, th.n { text-align: right; }
+td.n { white-space: nowrap; }
+tbody tr:nth-child(even) td { background: var(--zebra); }
+tbody tr.broken td, tbody tr.broken:nth-child(even) td { background: repeating-linear-gradient(135deg, #fff 0 6px, #f3dede 6px 9px); }
+tbody tr.broken td:first-child { box-shadow: inset 4px 0 0 var(--broken); }
+.flag { font-weight: 700; white-space: nowrap; }
+.flag.x { color: var(--broken); }
+.small { font-size: .85rem; color: var(--muted); }
+ol.findings { list-style: none; padding-left: 0; }
+ol.findings li, ul.plain li { margin-bottom: .35rem; }
+.source { font-size: .85rem; color: var(--muted); }
+code { font-size: .85em; overflow-wrap: anywhere; }
+.note { font-size: .88rem; }
+footer { margin-top: 1.6rem; }
+@page { margin: 14mm 12mm; }
+@media print {
+  body { max-width: none; padding: 0; font-size: 10pt; }
+  h2 { break-after: avoid; page-break-after: avoid; }
+  figure, .caution, tr, dl.summary { break-inside: avoid; page-break-inside: avoid; }
+  thead { display: table-header-group; }
+  table { font-size: 8.5pt; }
+  .caution, tr.broken td, th { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+}
+"""
+
+
+# -- writing files ------------------------------------------------------------------------------
+def check_output(path, *, option: str, suffixes, force: bool = False, inputs=()) -> Path:
+    """Check that ``path`` may be written as an output of ``option``; return it as a Path.
+
+    Refused (AltoxError, one line naming the file): a suffix not in ``suffixes``; a folder that
+    does not exist; a directory; any of the ``inputs`` (the plan files, also through a link);
+    an existing file unless ``force``.
+    """
+    out = Path(path)
+    if out.suffix.lower() not in suffixes:
+        raise AltoxError(f"{option}: {str(out)!r} must end in {' or '.join(suffixes)}", field=option,
+                         value=str(out), expected=" or ".join(suffixes))
+    parent = out.parent if str(out.parent) else Path(".")
+    if not parent.is_dir():
+        raise AltoxError(f"{option}: {str(out)!r}: the folder {str(parent)!r} does not exist", field=option,
+                         value=str(out))
+    if out.is_dir():
+        raise AltoxError(f"{option}: {str(out)!r} is a folder; expected a file name", field=option,
+                         value=str(out))
+    for src in inputs:
+        if _same_file(out, Path(src)):
+            raise AltoxError(f"{option}: {str(out)!r} is the input plan {str(src)!r}; refusing to write over it",
+                             field=option, value=str(out))
+    if (out.exists() or out.is_symlink()) and not force:
+        raise AltoxError(f"{option}: {str(out)!r} already exists; use --force to replace it", field=option,
+                         value=str(out))
+    return out
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        if a.exists() and b.exists():
+            return os.path.samefile(a, b)
+    except OSError:
+        pass
+    return os.path.realpath(a) == os.path.realpath(b)
+
+
+def write_atomic(path, data: bytes) -> Path:
+    """Write ``data`` to a temporary file beside ``path`` and move it into place (``os.replace``).
+
+    Readers never see a half-written file; on any error the temporary file is removed and an
+    existing ``path`` is left as it was.  The new file gets the usual permissions (0666 less the
+    umask), not the private ones of a temporary file.  A symbolic link at ``path`` is replaced by
+    the file, never followed.
+    """
+    out = Path(path)
+    parent = out.parent if str(out.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{out.name}.", suffix=".tmp", dir=parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        os.replace(tmp, out)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    return out
+
+
+# -- the report -----------------------------------------------------------------------------------
+def _e(text) -> str:
+    return html.escape(str(text), quote=True)
+
+
+def _s(text) -> str:
+    """Escaped text without its closing full stop (the report adds its own punctuation)."""
+    return _e(str(text).rstrip().rstrip("."))
+
+
+def _rows(cells_list, numeric) -> str:
+    out = []
+    for cells, cls in cells_list:
+        tds = "".join(f'<td class="n">{c}</td>' if num else f"<td>{c}</td>" for c, num in zip(cells, numeric))
+        out.append(f'<tr{f" class={chr(34)}{cls}{chr(34)}" if cls else ""}>{tds}</tr>')
+    return "\n".join(out)
+
+
+def _table(caption: str, headers, numeric, rows) -> str:
+    ths = "".join(f'<th scope="col" class="n">{_e(h)}</th>' if num else f'<th scope="col">{_e(h)}</th>'
+                  for h, num in zip(headers, numeric))
+    return (f"<table>\n<caption>{_e(caption)}</caption>\n<thead><tr>{ths}</tr></thead>\n<tbody>\n"
+            f"{_rows(rows, numeric)}\n</tbody>\n</table>")
+
+
+def _flags_html(result, leg) -> str:
+    marks = []
+    for k in leg["flags"]:
+        f = result.findings[k]
+        met = f.status == "required-planned"
+        marks.append(f'<span class="flag {"m" if met else "x"}">{FLAG_MET if met else FLAG_BROKEN}{k + 1}</span>')
+    return " ".join(marks) or "&ndash;"
+
+
+def _levels(result) -> list[int]:
+    from .charts import saturation_levels_pct
+
+    return [int(v) for v in saturation_levels_pct(result)]
+
+
+def _caution_block(where: str) -> str:
+    return (f'<aside class="caution" id="caution-{where}" role="note" aria-label="Caution">\n'
+            f"<h2>Guidance only &mdash; not a clearance</h2>\n<p>{_e(CAUTION)}</p>\n</aside>")
+
+
+def _summary(result, feet: bool) -> str:
+    s = result.summary
+    length = (f"{len(result.legs)} days" if result.kind == "expedition"
+              else f"{len(result.legs)} legs, {_fmt_h(s['total_hours'])}")
+    items = [("Plan", f"{_e(result.kind)}: {_e(length)}"),
+             ("Worst leg (model)", f"{s['worst_leg']} &ndash; {_e(s['worst_leg_label'])}: expected SaO2 "
+                                   f"{s['worst_sao2_pct']:.0f} % for the reference adult at rest on air"),
+             ("Hypoxic dose", f"{s['hypoxic_dose_kmh']:.1f} km&middot;h above {s['dose_floor_m']:,.0f} m")]
+    below = [f"{lvl} %: {_e(_fmt_h(s[f'hours_below_{lvl}_pct']))}" for lvl in _levels(result)]
+    if below:
+        items.append(("Time below SaO2 (reference adult)", "; ".join(below)))
+    cabin = [(int(k.split("_")[3]), v) for k, v in s.items() if k.startswith("hours_cabin_above_")]
+    if cabin:
+        items.append(("Time with the cabin above", "; ".join(f"{ft:,} ft: {_e(_fmt_h(v))}" for ft, v in cabin)))
+    broken = s["rules_broken"]
+    items.append(("Guidance", f"{_e(', '.join(result.rule_sets))}: <strong>{broken} not met</strong> by the plan, "
+                              f"{s['rules_touched']} touched (see &ldquo;Guidance&rdquo; below)"))
+    body = "\n".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in items)
+    return f'<section id="summary">\n<h2>Summary</h2>\n<dl class="summary">\n{body}\n</dl>\n</section>'
+
+
+def _chart(result, feet: bool, rule_sets) -> str:
+    from .charts import chart_svg_inline
+
+    svg = chart_svg_inline(result, feet=feet, rule_sets=rule_sets)
+    svg = svg.replace("<svg ", f'<svg role="img" aria-label="{_e("Chart of " + result.name)}" ', 1)
+    if result.kind == "flight":
+        what = ("Top: aircraft pressure altitude (thin line) and cabin pressure altitude (thick dashes), "
+                "with the cabin-altitude thresholds of the rule sets applied.")
+    else:
+        what = ("Top: altitude through each day (thin line), nights at the sleeping altitude (thick line), "
+                "the day's high points (triangles), and the sleeping altitude above which the ascent-rate "
+                "guidance applies.")
+    cap = (f"{what} Bottom: expected SaO2 at rest on air for the reference adult (thick line), each person "
+           "(thin lines) and the range between them, with the plan's saturation levels (dots). Hatched: legs "
+           "where the plan does not meet a guidance rule (flags as in the tables); grey: rest days; "
+           "cross-hatched strip: supplemental oxygen planned. Model estimates, not measurements.")
+    return f'<section id="chart">\n<h2>Profile</h2>\n<figure>\n{svg}\n<figcaption>{_e(cap)}</figcaption>\n</figure>\n</section>'
+
+
+def _people(result) -> str:
+    levels = _levels(result)
+    parts = ['<section id="people">', "<h2>People: per-person risk (guidance) and expected saturation</h2>"]
+    if not result.members:
+        parts.append("<p>The plan lists no people; every value is for the reference adult.</p></section>")
+        return "\n".join(parts)
+    expedition = result.kind == "expedition"
+    headers = ["Name", "Role", "Age", "Hb g/dL", "Lowest SaO2 %", "Leg"] + [f"h below {lvl} %" for lvl in levels]
+    numeric = [False, False, True, True, True, True] + [True] * len(levels)
+    if expedition:
+        headers.append("Risk (guidance)")
+        numeric.append(False)
+    rows = []
+    for m in result.members:
+        cells = [_e(m["name"]), _e(m["role"]), f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
+                 f"{m['min_sao2_pct']:.0f}", str(m["min_sao2_leg"])]
+        cells += [_e(_fmt_h(m.get(f"hours_below_{lvl}_pct", 0.0))) for lvl in levels]
+        if expedition:
+            cells.append(_e(m.get("risk_category") or "-"))
+        rows.append((cells, ""))
+    parts.append(_table("Expected values per person (model estimates, at rest, on air)", headers, numeric, rows))
+    if expedition:
+        reasons = [m for m in result.members if m.get("risk_reasons")]
+        if reasons:
+            parts.append(f"<h3>Why (risk table of {_e(reasons[0].get('risk_rule_set', 'the guideline'))})</h3>")
+            parts.append('<ul class="plain">' + "".join(
+                f"<li><strong>{_e(m['name'])}</strong> ({_e(m.get('risk_category'))}): "
+                f"{_e('; '.join(m['risk_reasons']))}</li>" for m in reasons) + "</ul>")
+        texts: dict[str, list[str]] = {}
+        for m in result.members:
+            if m.get("prophylaxis"):
+                texts.setdefault(m["prophylaxis"], []).append(m["name"])
+        for text, names in texts.items():
+            parts.append(f'<p class="note"><strong>Prevention (guidance) for {_e(", ".join(names))}:</strong> '
+                         f"{_e(text)}</p>")
+    parts.append('<p class="note">Per-person values come from the model with the person\'s age and hemoglobin; '
+                 "disease, history and measurements recorded in the plan are not part of the saturation "
+                 "figures. People vary widely: check people, not numbers.</p>")
+    parts.append("</section>")
+    return "\n".join(parts)
+
+
+def _place_cells(leg, expedition: bool, conv) -> list[str]:
+    """Where and when a leg is, as the terminal's table shows it: two altitudes and a time."""
+    if not expedition:
+        ac_ft = leg["aircraft_pressure_altitude_ft"]
+        aircraft = f"FL{ac_ft / 100:.0f}" if ac_ft >= 18000 else f"{ac_ft:,.0f}"   # flight levels from 18,000 ft
+        return [aircraft, f"{leg['max_cabin_pressure_altitude_ft']:,.0f}", _e(_fmt_h(leg["duration_h"]))]
+    high = leg["high_altitude_m"]
+    return [f"{conv(leg['sleep_altitude_m']):,.0f}", "&ndash;" if high is None else f"{conv(high):,.0f}",
+            f"day {leg['day']}"]
+
+
+def _legs(result, feet: bool) -> str:
+    from .charts import BROKEN_STATUSES
+
+    conv = (lambda m: m * _FT_PER_M) if feet else (lambda m: m)
+    unit = "ft" if feet else "m"
+    expedition = result.kind == "expedition"
+    headers = ["Leg", "What"] + ([f"Sleep {unit}", f"High {unit}"] if expedition else ["Aircraft FL/ft", "Cabin ft"])
+    headers += ["Time", "PB mmHg", "PIO2 mmHg", "Dose km·h"]
+    numeric = [True, False, True, True, True, True, True, True]
+    where, phys = [], []
+    for leg in result.legs:
+        cls = "broken" if any(result.findings[k].status in BROKEN_STATUSES for k in leg["flags"]) else ""
+        label = _e(leg["label"]) + (" <strong>+O2</strong>" if leg["oxygen_planned"] else "")
+        where.append(([str(leg["leg"]), label, *_place_cells(leg, expedition, conv), f"{leg['barometric_mmhg']:.0f}",
+                       f"{leg['inspired_po2_mmhg']:.0f}", f"{leg['hypoxic_dose_kmh']:.1f}"], cls))
+        phys.append(([str(leg["leg"]), f"{leg['alveolar_pco2_mmhg']:.0f}", f"{leg['alveolar_po2_mmhg']:.0f}",
+                      f"{leg['arterial_po2_mmhg']:.0f}", f"{leg['arterial_po2_mmhg'] * KPA_PER_MMHG:.1f}",
+                      f"{leg['sao2_pct']:.0f}", f"{leg['o2_content_ml_dl']:.1f}", _flags_html(result, leg)], cls))
+    t1 = _table("Where and when (PB and PIO2 at the worst moment of the leg; dose cumulative to its end)",
+                headers, numeric, where)
+    t2 = _table("Expected physiology at rest, on air (reference adult, worst moment of each leg)",
+                ["Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %", "CaO2 mL/dL", "Flags"],
+                [True] * 7 + [False], phys)
+    return (f'<section id="legs">\n<h2>{"Day by day" if expedition else "Leg by leg"}</h2>\n{t1}\n{t2}\n'
+            f'<p class="small">{_e(FLAG_LEGEND)} Hatched rows: guidance not met.</p>\n</section>')
+
+
+def _threshold_of(rule_sets, finding):
+    for rs in rule_sets:
+        if rs.id == finding.rule_set_id:
+            for th in rs.thresholds:
+                if th.id == finding.threshold_id:
+                    return th
+    return None
+
+
+def _num(v, fmt="{:,.0f}") -> str:
+    return "&ndash;" if v is None else _e(fmt.format(v))
+
+
+def _dur_s(seconds) -> str:
+    if seconds is None:
+        return "&ndash;"
+    return f"{seconds / 60:.1f} min" if seconds >= 120 else f"{seconds:.0f} s"
+
+
+def _oxygen(result, rule_sets, review) -> str:
+    """Oxygen planned (legs, guidance asking for it) and the oxygen review of the plan, where present."""
+    from .timeline import OXYGEN_NAMES
+
+    import numpy as np
+
+    legs = [leg for leg in result.legs if leg["oxygen_planned"]]
+    found = [(k, f) for k, f in enumerate(result.findings)
+             if (th := _threshold_of(rule_sets, f)) is not None and th.check == "oxygen"]
+    planned = (review or {}).get("planned") or []
+    would = (review or {}).get("would_need") or []
+    if not legs and not found and not planned and not would:
+        return ""
+    flight = result.kind == "flight"
+    parts = ['<section id="oxygen">', "<h2>Supplemental oxygen</h2>",
+             "<p>The physiology in the tables above is on air: planned oxygen is shown, not applied, so those "
+             "figures are what a person would have if the oxygen failed.</p>"]
+    if legs and not planned:
+        codes = np.asarray(result.samples["oxygen_code"])
+        leg_of = np.asarray(result.samples["leg"])
+        items = []
+        for leg in legs:
+            who = sorted({OXYGEN_NAMES.get(int(c), str(c)) for c in codes[leg_of == leg["leg"]] if int(c) > 0})
+            items.append(f"<li>{_e(leg['label'])}: oxygen planned for {_e(', '.join(who) or 'the party')}</li>")
+        parts.append('<ul class="plain">' + "".join(items) + "</ul>")
+    if found:
+        parts.append('<ul class="plain">' + "".join(
+            f'<li><span class="flag {"m" if f.status == "required-planned" else "x"}">'
+            f'{FLAG_MET if f.status == "required-planned" else FLAG_BROKEN}{k + 1}</span> {_e(f.message)}</li>'
+            for k, f in found) + "</ul>")
+    if planned:
+        rows = []
+        for r in planned:
+            where = _num(r["cabin_ft"]) if flight else _num(r["altitude_m"])
+            device = _e(r["device"]) + ("" if r["device_ok"] else " <strong>(!)</strong>")
+            rows.append(([str(r["leg"]), _e(r["when"]) + (f" ({_e(', '.join(r['who']))})" if r.get("who") else ""),
+                          where, device, _num(r["flow_l_min"], "{:.1f}"), _num(r["fio2_achieved"], "{:.2f}"),
+                          _num(r["equivalent_altitude_m"]), _num(r["sao2_pct"], "{:.0f}"),
+                          _num(r["litres_per_person"])], ""))
+        parts.append(_table("Oxygen planned: flow and FiO2 on the assumed device (L/min at 1 atm, 15 degC; "
+                            "Eq. m = equivalent altitude)",
+                            ["Leg", "Who", "Cabin ft" if flight else "At m", "Device", "L/min", "FiO2", "Eq. m",
+                             "SaO2 %", "L each"], [True, False, True, False, True, True, True, True, True], rows))
+        notes = [f"<li><strong>(!)</strong> leg {r['leg']}: {_e(n)}</li>" for r in planned for n in r["notes"]]
+        if notes:
+            parts.append('<ul class="plain">' + "".join(notes) + "</ul>")
+    c = (review or {}).get("cylinders")
+    if c is not None:
+        rows = [([_e(p["name"]), _num(p["litres"]), str(p["cylinders"])], "") for p in c["per_person"]]
+        rows.append((["<strong>Total</strong>", _num(c["litres_total"]), str(c["cylinders_total"])], ""))
+        parts.append(_table(f"Cylinders: {c['label']}, {c['usable_l']:,.0f} L usable of {c['gas_l']:,.0f} L; "
+                            f"margin {c['safety_margin_fraction']:.0%} ({c['basis']})",
+                            ["Person", "Oxygen L", "Cylinders"], [False, True, True], rows))
+        pack = [([_e(i["item"]), str(i["quantity"]), _e(i["note"])], "") for i in review["packing_list"]]
+        parts.append(_table("Packing list", ["Item", "Qty", "Note"], [False, True, False], pack))
+    if would:
+        target_m = review["target"]["equivalent_altitude_m"]
+        rows = []
+        for r in would:
+            note = ("pressure breathing" if r["pressure_breathing"] else "") if r["device_reaches_target"] \
+                else "beyond this device"
+            if not r["reachable"]:
+                note = f"100 % O2 not enough; ceiling {_num(r['ceiling_pressure_altitude_ft'])} ft"
+            rows.append(([str(r["leg"]), _num(r["pb_mmhg"]), _num(r["fio2_needed"], "{:.2f}"), _e(r["device"]),
+                          _num(r["flow_l_min"], "{:.1f}"), note], ""))
+        parts.append(_table(f"To hold an equivalent altitude of {target_m:,.0f} m ({target_m * _FT_PER_M:,.0f} ft): "
+                            f"what the legs above it would need",
+                            ["Leg", "PB mmHg", "FiO2", "Device", "L/min", "Note"],
+                            [True, True, True, False, True, False], rows))
+        parts.append(f'<p class="source">Review target: {_s(review["target"]["source"])}; basis: '
+                     f'{_s(review["target"]["basis"])}.</p>')
+    if review:
+        items = "".join(f"<li>{_e(a)}</li>" for a in list(review.get("assumptions", [])) + list(review.get("notes", [])))
+        if items:
+            parts.append(f'<h3>Oxygen assumptions</h3>\n<ul class="plain">{items}</ul>')
+    parts.append("</section>")
+    return "\n".join(parts)
+
+
+def _decompression(result, rule_sets, review) -> str:
+    """The decompression review of a pressurized flight and the failure limits of the rule sets."""
+    if result.kind != "flight":
+        return ""
+    limits = []
+    for rs in rule_sets:
+        if rs.kind != "aviation":
+            continue
+        for th in rs.thresholds:
+            if th.condition and re.search(r"failure|decompression", th.condition, re.I):
+                dur = f", {th.duration}" if th.duration else ""
+                limits.append(f"<li><strong>{_e(th.value)}{_e(dur)}</strong> &ndash; {_s(th.requirement)} "
+                              f"({_e(th.condition)}). <span class=\"source\">{_e(rs.label)} {_e(th.section)}; "
+                              f"basis: {_s(th.basis)}.</span></li>")
+    applicable = bool(review and review.get("applicable"))
+    if not limits and not applicable:
+        return ""
+    parts = ['<section id="decompression">', "<h2>Pressurization failure and decompression</h2>"]
+    if applicable:
+        cps = [float(c) for c in review["checkpoints_ft"]]
+        rate = review["descent_rate_ft_min"]
+        rows = []
+        for r in review["legs"]:
+            tuc = (f"&gt; {_dur_s(r['tuc_max_s'])}" if r["tuc_min_s"] is None
+                   else f"{_dur_s(r['tuc_min_s'])} to {_dur_s(r['tuc_max_s'])}")
+            times = [_num(r["minutes_to"].get(f"{c:.0f}"), "{:.1f} min") for c in cps]
+            crew = r["crew"]["oxygen_l"] if r["crew"] else None
+            pax = r["passengers"]["oxygen_l"] if r["passengers"] else None
+            rows.append(([str(r["leg"]), _num(r["aircraft_ft"]), tuc, *times, _num(crew, "{:.1f}"),
+                          _num(pax, "{:.1f}"), _num(r["oxygen_total_l"], "{:.0f}")], ""))
+        cap = ("After a rapid decompression: time of useful consciousness (TUC) at rest on air, "
+               + (f"emergency descent at {rate:,.0f} ft/min, " if rate else "")
+               + "oxygen per occupant on the way down (L)")
+        parts.append(_table(cap, ["Leg", "Aircraft ft", "TUC"] + [f"To {c:,.0f} ft" for c in cps]
+                            + ["Crew L each", "Others L each", "Total L"],
+                            [True, True, True] + [True] * len(cps) + [True, True, True], rows))
+        free = review["oxygen_free_ft"]
+        notes = [f"Oxygen until the cabin is below {free['crew']:,.0f} ft for crew ({free['crew_from']}) and "
+                 f"{free['passengers']:,.0f} ft for passengers ({free['passengers_from']}); "
+                 f"{review['crew_count']} crew, {review['passenger_count']} others aboard.",
+                 f"Convention ({review['convention']['basis']}): {review['convention']['rule']}",
+                 f"TUC: {review['tuc_interpolation']}. {review['tuc_caution']} A rapid decompression may shorten "
+                 "it by up to half.",
+                 "Litres are per occupant at reference conditions, before any planning margin; certified "
+                 "aircraft systems are sized by their own rules."] + list(review.get("notes", []))
+        if any(r[g] is not None and not r[g]["target_held"] for r in review["legs"] for g in ("crew", "passengers")):
+            notes.append("(!) On some legs the assumed device cannot hold the target at the top of the descent "
+                         "(pressure breathing or a faster descent is needed).")
+        parts.append('<ul class="plain">' + "".join(f"<li>{_e(n)}</li>" for n in notes) + "</ul>")
+    if limits:
+        parts.append("<h3>Failure limits in the rule sets applied</h3>\n<p>These cabin-altitude limits concern a "
+                     "failure of the pressurization system; the planned profile above is not a failure. The "
+                     "aircraft's approved data and the operator's procedures decide.</p>\n"
+                     f'<ul class="plain">{"".join(limits)}</ul>')
+    parts.append("</section>")
+    return "\n".join(parts)
+
+
+def _guidance(result, rule_sets, missing) -> str:
+    parts = ['<section id="guidance">', "<h2>Guidance applied and its sources</h2>"]
+    if result.findings:
+        parts.append("<h3>What the plan touches</h3>")
+        items = []
+        for k, f in enumerate(result.findings):
+            met = f.status == "required-planned"
+            items.append(f'<li><span class="flag {"m" if met else "x"}">{FLAG_MET if met else FLAG_BROKEN}{k + 1}</span> '
+                         f"[{_e(f.rule_set_id)} {_e(f.section)}] {_e(f.message)} "
+                         f'<span class="source">Source: {_s(f.citation)}; basis: {_e(f.basis or "-")}.</span></li>')
+        parts.append('<ol class="findings">' + "".join(items) + "</ol>")
+    else:
+        parts.append("<p>The plan touches no threshold of the rule sets applied. That is a statement about "
+                     "altox's reading of the guidance, not a clearance.</p>")
+    parts.append("<h3>Rule sets</h3>")
+    for rs in rule_sets:
+        ths = "".join(
+            f"<li>{_e(th.value)}"
+            + (f" to {_e(th.band_top)}" if th.band_top else "")
+            + (f" above {_e(th.above)}" if th.above else "")
+            + (f", {_e(th.duration)}" if th.duration else "")
+            + f" ({_e(th.applies_to)}): {_s(th.requirement)}. "
+            f'<span class="source">{_e(th.section)}; basis: {_e(th.basis)}; {_s(th.where)}.</span></li>'
+            for th in rs.thresholds)
+        url = f" Official text: <code>{_e(rs.url)}</code>." if rs.url else ""
+        parts.append(f'<h3 id="rules-{_e(rs.id)}">{_e(rs.title)} <span class="small">({_e(rs.id)})</span></h3>\n'
+                     f'<p class="source">{_s(rs.jurisdiction)}. Edition: {_s(rs.edition)}. In force: '
+                     f"{_s(rs.effective)}. Citation: {_s(rs.citation)}.{url}</p>\n"
+                     f'<p class="note">{_e(rs.caution)}</p>\n<ul class="plain">{ths}</ul>')
+    for rid in missing:
+        parts.append(f"<p>Rule set {_e(rid)}: its file was not at hand when the report was written; see the "
+                     "findings above for what it says about the plan.</p>")
+    parts.append("</section>")
+    return "\n".join(parts)
+
+
+def _assumptions(result, with_reviews: bool = True) -> str:
+    extra = [] if with_reviews else ["The oxygen and decompression reviews need the plan itself, which was not "
+                                     "given with this result; they are not in this report."]
+    notes = "".join(f"<li>{_e(n)}</li>" for n in list(result.notes) + extra)
+    return ('<section id="assumptions">\n<h2>Model assumptions</h2>\n'
+            f'<ul class="plain">{notes}</ul>\n'
+            "<p>The models, their equations, validity ranges and references are described in "
+            "<code>docs/methods.md</code> in altox's source; the guidance rule sets and how altox reads them "
+            "in <code>docs/rules.md</code>.</p>\n</section>")
+
+
+def build_report(result, *, plan=None, feet: bool = False, rule_sets=None, rule_files=()) -> str:
+    """The HTML text of the report of an evaluated plan.
+
+    Parameters
+    ----------
+    result : altox.evaluate.PlanResult
+    plan : ExpeditionPlan or FlightPlan, optional
+        The plan as evaluated; with it the report has the oxygen and decompression reviews
+        (:mod:`altox.oxygen_plan`).  By default it is read again from ``result.source``; a plan
+        given as data without it gets no reviews (the report says so).
+    feet : bool
+        Expedition altitudes in feet (flights are always in feet, as in the tables).
+    rule_sets : list of RuleSet, optional
+        The rule sets applied; found from ``result.rule_sets`` (and ``rule_files``) by default.
+    rule_files : sequence of paths
+        The user's own rule files, for rule sets that are not shipped with altox.
+    """
+    from . import __version__
+    from .charts import applied_rule_sets
+
+    missing: list[str] = []
+    if rule_sets is None:
+        rule_sets, missing = applied_rule_sets(result, rule_files)
+    if plan is None and result.source:
+        from .profile import load_plan
+
+        plan = load_plan(result.source)
+    ox_review, dec_review = result.extras.get("oxygen"), result.extras.get("decompression")
+    if plan is not None and (ox_review is None or dec_review is None):
+        from .oxygen_plan import decompression_review, oxygen_review
+
+        ox_review, dec_review = oxygen_review(plan, result), decompression_review(plan, result)
+    source = Path(result.source).name if result.source else "plan given as data"
+    kind = "expedition itinerary" if result.kind == "expedition" else "flight profile"
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        f'<meta http-equiv="Content-Security-Policy" content="{CSP}">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f'<meta name="generator" content="altox {_e(__version__)}">',
+        f"<title>{_e(result.name)} &ndash; altox report</title>",
+        f"<style>{_CSS}</style>",
+        "</head>",
+        "<body>",
+        "<header>",
+        f"<h1>{_e(result.name)}</h1>",
+        f'<p class="meta">altox {_e(__version__)} report of the {kind} in {_e(source)}</p>',
+        "</header>",
+        _caution_block("top"),
+        "<main>",
+        _summary(result, feet),
+        _chart(result, feet, rule_sets),
+        _people(result),
+        _legs(result, feet),
+        _oxygen(result, rule_sets, ox_review),
+        _decompression(result, rule_sets, dec_review),
+        _guidance(result, rule_sets, missing),
+        _assumptions(result, plan is not None),
+        "</main>",
+        "<footer>",
+        _caution_block("end"),
+        "</footer>",
+        "</body>",
+        "</html>",
+        "",
+    ]
+    return "\n".join(p for p in parts if p)
+
+
+def write_report(result, path, *, plan=None, feet: bool = False, rule_sets=None, rule_files=()) -> Path:
+    """Write the report to ``path`` through a temporary file (see :func:`write_atomic`).
+
+    The caller decides whether an existing file may be replaced (:func:`check_output`).
+    """
+    text = build_report(result, plan=plan, feet=feet, rule_sets=rule_sets, rule_files=rule_files)
+    return write_atomic(path, text.encode("utf-8"))
