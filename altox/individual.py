@@ -163,14 +163,28 @@ def fit_shunt_fraction(target, *, altitude_m=0.0, atmosphere="mountain", target_
         raise FactorError(f"a resting {what} of {v:.1f}{unit} needs more venous admixture than altox "
                           f"models (shunt above {qs_max:.0%}); the single-compartment lung does not "
                           "describe this person.", field=target_kind, value=v)
+    # saturation and PaO2 fall smoothly and monotonically with venous admixture: two passes of
+    # 65 candidates each, evaluated in one vectorised call per pass, then linear interpolation
+    def expand(v):
+        return v if v is None or np.ndim(v) == 0 else np.asarray(v, dtype=float)[..., None]
+
+    kw_grid = {k: expand(v) for k, v in kw.items()}
     lo = np.zeros(shape)
     hi = np.full(shape, qs_max)
-    for _ in range(40):
-        mid = 0.5 * (lo + hi)
-        y = np.asarray(assess(alt, shunt_fraction=mid, **kw)[key])
-        above = y > tb
-        lo = np.where(above, mid, lo)
-        hi = np.where(above, hi, mid)
+    for _ in range(2):
+        grid = lo[..., None] + (hi - lo)[..., None] * np.linspace(0.0, 1.0, 65)
+        y = np.asarray(assess(alt[..., None], shunt_fraction=grid, **kw_grid)[key])
+        # index of the last candidate still above the target (y decreases along the grid)
+        above = y > tb[..., None]
+        i = np.clip(above.sum(axis=-1) - 1, 0, 63)
+        take = lambda a, j: np.take_along_axis(a, j[..., None], axis=-1)[..., 0]  # noqa: E731
+        y0, y1 = take(y, i), take(y, i + 1)
+        g0, g1 = take(grid, i), take(grid, i + 1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w = np.where(y0 != y1, (y0 - tb) / (y0 - y1), 0.5)
+        lo, hi = g0, g1
+        estimate = g0 + np.clip(w, 0.0, 1.0) * (g1 - g0)
+    lo = hi = estimate
     out = 0.5 * (lo + hi)
     return out if out.shape else float(out)
 
