@@ -18,7 +18,7 @@ def test_standard_p50():
 SEV_TABLE = [r for r in rows("odc_reference.csv") if r["id"].startswith("odc_sev_table")]
 
 
-# Severinghaus 1979 collected standard-curve data (secondary transcription, see odc_reference.csv);
+# Severinghaus 1979 collected standard-curve data (copied from a secondary source, see odc_reference.csv);
 # the paper states the equation is within 0.0055 of the data.
 @pytest.mark.parametrize("row", SEV_TABLE, ids=[r["id"] for r in SEV_TABLE])
 def test_standard_curve_points(row):

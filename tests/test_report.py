@@ -79,7 +79,8 @@ class _Scan(HTMLParser):
         (self.css if self._in_style else self.text).append(data)
 
 
-FETCHING_TAGS = {"script", "link", "img", "iframe", "frame", "object", "embed", "audio", "video", "source",
+# media elements fetch through src/poster/srcset, which URL_ATTRS below refuses wherever they appear
+FETCHING_TAGS = {"script", "link", "img", "iframe", "frame", "object", "embed", "source",
                  "track", "base", "form", "input", "image", "feimage", "use_external"}
 URL_ATTRS = {"src", "href", "xlink:href", "action", "formaction", "poster", "data", "srcset", "background",
              "manifest", "ping", "cite", "longdesc"}
