@@ -1,0 +1,25 @@
+"""Ensemble probe for benchmarks/run.py: one person's expected range over a 30-day plan sampled every minute.
+
+Run in its own process so that peak resident memory (ru_maxrss, the operating system's own
+accounting) belongs to this work alone. Prints: seconds, person-samples, peak MB.
+"""
+import resource, sys, time
+from altox.profile import load_plan_text
+from altox.population import expected_range
+days = "\n".join(f"  - {{day: {d}, sleep: '{min(2800 + 300 * (d // 2), 5200)} m'}}" for d in range(1, 31))
+text = f"""kind: expedition
+name: benchmark month
+start_altitude: 1,200 m
+sample_every: 1 min
+party:
+  - {{name: A, age: 35}}
+days:
+{days}
+"""
+plan = load_plan_text(text)
+n = int(sys.argv[1])
+t = time.perf_counter()
+r = expected_range(plan, n=n, seed=1)
+dt = time.perf_counter() - t
+samples = len(r["time_h"])
+print(dt, n * samples, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0)
