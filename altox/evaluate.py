@@ -132,6 +132,12 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
 
     dt = np.asarray(tl.duration_h, dtype=float)
     floor = plan.dose_floor_m
+    # no resting steady state (inspired PO2 too low on air) or the alveolar gas equation below zero
+    from .ventilation import model_coefficients
+
+    min_pio2 = float(model_coefficients()["validity"]["min_inspired_po2_mmhg"]["value"])
+    valid = (np.asarray(res["solver_converged"]) & ~np.asarray(res["alveolar_po2_clamped"])
+             & (np.asarray(res["inspired_po2_mmhg"]) >= min_pio2))
     dose_kmh = np.cumsum(np.maximum(tl.altitude_m - floor, 0.0) / 1000.0 * dt)
     levels = sorted(plan.saturation_levels, reverse=True)
     ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
@@ -164,6 +170,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         for k in PHYSIOLOGY_KEYS:
             leg[k] = float(ref[k][worst])
         leg["night_sao2_pct"] = float(ref["sao2_pct"][asleep].min()) if asleep.size else None
+        leg["model_valid"] = bool(np.all(valid[:, idx]))
         leg["hypoxic_dose_kmh"] = float(dose_kmh[idx[-1]])
         for lvl in levels:
             leg[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][idx[-1]])
@@ -231,6 +238,12 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
              "lowest while asleep, with the lower chemoreflex drive of sleep (docs/individual.md).",
              "Members' values include their age, hemoglobin, ventilatory response category, acetazolamide, "
              "and a venous admixture fitted to a stated home or ground SpO2/PaO2 where given."]
+    invalid_legs = [leg["leg"] for leg in legs if not leg["model_valid"]]
+    if invalid_legs:
+        notes.append("OUTSIDE THE MODEL on leg(s) " + ", ".join(map(str, invalid_legs)) + f": breathing air there "
+                     f"gives an inspired PO2 below {min_pio2:.0f} mmHg, lower than any published measurement the "
+                     "model is checked against (the highest summit); on acute exposure consciousness is lost within "
+                     "minutes. The numbers shown are not a prediction.")
     if plan.kind == "expedition":
         notes.append("Acclimatization carries across days from each person's home altitude; "
                      "mountain model atmosphere unless a day says otherwise.")

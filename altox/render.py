@@ -113,8 +113,10 @@ def point_table(result: dict, assumptions: list[str]):
 # -- plans ------------------------------------------------------------------------------------
 FLAG_BROKEN = "X"   # the plan does not meet this guidance
 FLAG_MET = "+"      # guidance asks for oxygen here and the plan provides it
+OUTSIDE_MODEL = "?"  # the leg leaves the model's validity (see the notes)
 FLAG_LEGEND = (f"Flags: {FLAG_BROKEN}n = guidance n (listed below) not met by the plan; "
-               f"{FLAG_MET}n = guidance n asks for oxygen here and the plan provides it.")
+               f"{FLAG_MET}n = guidance n asks for oxygen here and the plan provides it; "
+               f"{OUTSIDE_MODEL} = outside the model (see notes).")
 
 
 def _flag_text(result, leg):
@@ -188,7 +190,10 @@ def plan_renderables(result, *, feet: bool = False):
                f"{leg['sao2_pct']:.0f}"]
         if night:
             row.append("-" if leg["night_sao2_pct"] is None else f"{leg['night_sao2_pct']:.0f}")
-        phys.add_row(*row, f"{leg['o2_content_ml_dl']:.1f}", _flag_text(result, leg))
+        flags = _flag_text(result, leg)
+        if not leg.get("model_valid", True):
+            flags = (OUTSIDE_MODEL + " " + flags) if flags != "-" else OUTSIDE_MODEL
+        phys.add_row(*row, f"{leg['o2_content_ml_dl']:.1f}", flags)
     out.append(phys)
     out.append(Text(FLAG_LEGEND))
 

@@ -121,3 +121,24 @@ def test_members_evaluated_in_one_pass_and_risk_reported():
     assert b["min_o2_content_ml_dl"] < a["min_o2_content_ml_dl"]     # lower Hb, older
     assert b["min_sao2_pct"] < a["min_sao2_pct"]                     # wider A-a difference with age
     assert b["risk_category"] == "high"                              # prior HAPE (WMS 2024 risk table)
+
+
+def test_legs_beyond_the_validated_range_are_marked():
+    # The lowest inspired PO2 in the validation data is the summit's (~43 mmHg, West et al. 1983);
+    # an unpressurized cabin at 33,000 ft on air (PIO2 ~31 mmHg) is beyond it and must say so.
+    text = _flight(33000, 10, "us-14cfr-91")
+    r = evaluate_plan(load_plan_text(text))
+    assert not r.legs[1]["model_valid"]
+    assert any(n.startswith("OUTSIDE THE MODEL") for n in r.notes)
+    healthy = evaluate_plan(load_plan_text(_flight(8000, 30, "us-14cfr-91")))
+    assert all(leg["model_valid"] for leg in healthy.legs)
+
+
+def test_demo_plans_stay_inside_the_model():
+    from pathlib import Path
+
+    from altox.profile import load_plan
+
+    for path in sorted((Path(__file__).resolve().parents[1] / "profiles").glob("*.yaml")):
+        r = evaluate_plan(load_plan(path))
+        assert all(leg["model_valid"] for leg in r.legs), path.name
