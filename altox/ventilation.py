@@ -134,14 +134,16 @@ def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hy
     base = p.baseline_paco2_mmhg * met
     log_sol = np.log10(blood.CO2_SOLUBILITY_MMOL_L_MMHG)
 
-    def state(u, derivative=False):
+    def state(u, derivative=False, outputs_only=False):
         x = np.exp(u)
         paco2 = base / x
-        pao2 = pio2 - paco2 * factor
         k = np.where(paco2 < 40.0, k_low, k_high)
         hco3_raw = hco3_n - k * (40.0 - paco2)
         hco3 = np.maximum(hco3_raw, 1.0)
         ph = blood.PK_CARBONIC + np.log10(hco3) - log_sol - np.log10(paco2)
+        if outputs_only:
+            return paco2, hco3, ph
+        pao2 = pio2 - paco2 * factor
         central = np.maximum(0.0, 1.0 - p.central_ph_gain * (ph - 7.40))
         if not derivative:
             hypoxic = np.maximum(1.0 + gain * (_phi(pao2 - p.sensor_aado2_mmhg, p) - phi_sl), 0.5)
@@ -157,7 +159,7 @@ def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hy
         dhyp = np.where(hyp_raw > 0.5, gain * dphi * factor * paco2, 0.0)
         with np.errstate(divide="ignore", invalid="ignore"):
             dg = np.where(drive > 1e-12, 1.0 - dcentral / central - dhyp / hypoxic, 1.0)
-        return g, dg
+        return g, dg, paco2, hco3, ph
 
     return pio2, state, (pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off)
 
@@ -223,62 +225,95 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
     pio2, state, args = _make_state(*flat, params)
     lo, hi = np.log(0.3), np.log(40.0)
     u = _initial_guess(args, params)
-    todo = np.ones(pio2.shape, dtype=bool)
-    used = 1
-    for used in range(1, NEWTON_STEPS + 1):
-        g, dg = state(u, derivative=True)
-        todo = ~(np.abs(g) <= tolerance)
-        if not todo.any():
-            break
-        step = np.where(todo & (dg > 0.0), g / np.where(dg > 0.0, dg, 1.0), 0.0)
-        u = np.clip(u - step, lo, hi)
-    else:
-        todo = ~(np.abs(state(u)[0]) <= tolerance)
     converged = np.ones(pio2.shape, dtype=bool)
-    if todo.any():  # the rare points Newton did not settle: the bracketed solver, on them only
-        sub_args = [np.asarray(a)[todo] for a in args]
+    # Two Newton steps on the whole array from the tabulated guess. Convergence is quadratic, so a
+    # second step below 1e-6 (from a residual below 1e-6) leaves an error of order its square
+    # (< 1e-11): those points are done without a third evaluation.
+    for used in (1, 2):
+        g, dg = state(u, derivative=True)[:2]
+        ok = np.isfinite(g) & (dg > 0.0)
+        step = np.where(ok, g / np.where(ok, dg, 1.0), 0.0)
+        u = np.clip(u - step, lo, hi)
+    # a small residual too: a tiny step on a cliff of the residual (the central drive's cut-off) is no root
+    todo = ~(ok & (np.abs(step) < 1e-6) & (np.abs(g) < 1e-6)) | (u <= lo + 1e-9) | (u >= hi - 1e-9)
+    paco2, hco3, ph = state(u, outputs_only=True)
+    if todo.any():
+        # ... the few left (near the kinks of the controller) continue on their own, then the
+        # bracketed solver takes any Newton did not settle
+        idx = np.flatnonzero(todo)
+        sub_args = [np.asarray(a)[idx] for a in args]
         sub_pio2, sub_state, _ = _make_state(*sub_args, params)
-        u_sub, conv_sub, more = _solve_bracketed(sub_pio2, sub_state, max_iterations, tolerance)
+        us = u[idx]
+        for _ in range(NEWTON_STEPS):
+            gs, dgs, *_ = sub_state(us, derivative=True)
+            left = ~(np.abs(gs) <= tolerance)
+            if not left.any():
+                break
+            us = np.clip(us - np.where(left & (dgs > 0.0), gs / np.where(dgs > 0.0, dgs, 1.0), 0.0), lo, hi)
+        else:
+            left = ~(np.abs(sub_state(us)[0]) <= tolerance)
+        used += NEWTON_STEPS
+        if left.any():
+            inner = np.flatnonzero(left)
+            b_pio2, b_state, _ = _make_state(*[a[inner] for a in sub_args], params)
+            u_b, conv_b, more = _solve_bracketed(b_pio2, b_state, max_iterations, tolerance)
+            us[inner] = u_b
+            converged[idx[inner]] = conv_b
+            used += more
         u = u.copy()
-        u[todo] = u_sub
-        converged[todo] = conv_sub
-        used += more
-    g, paco2, hco3, ph = state(u)
+        u[idx] = us
+        _, sub_paco2, sub_hco3, sub_ph = sub_state(us)
+        paco2, hco3, ph = paco2.copy(), hco3.copy(), ph.copy()
+        paco2[idx], hco3[idx], ph[idx] = sub_paco2, sub_hco3, sub_ph
     return {"paco2_mmhg": paco2.reshape(shape), "ventilation_ratio": np.exp(u).reshape(shape),
             "hco3_mmol_l": hco3.reshape(shape), "ph": ph.reshape(shape),
             "converged": converged.reshape(shape), "iterations": used}
 
 
 NEWTON_STEPS = 6
-_GUESS_PIO2 = np.linspace(15.0, 215.0, 401)
-_GUESS_F = np.linspace(0.0, 1.0, 5)
+_GUESS_PIO2 = np.linspace(15.0, 215.0, 201)   # 1 mmHg steps
+_GUESS_F = np.linspace(0.0, 1.0, 6)           # ventilatory and renal acclimatization, 0.2 steps
+# the guess table is built for scalar stand-ins of the other inputs, rounded to these steps so that
+# nearby values share one table (the guess only needs to be close; Newton does the rest)
+_GUESS_KEY_STEPS = (0.05, 0.05, 0.1, 0.1, 0.05, 1.0)   # fio2, rq, metabolic, gain, drive, HCO3 offset
 
 
 @lru_cache(maxsize=32)
 def _guess_table(fio2, rq, met, gscale, dscale, off):
-    """ln x solved on a grid of PIO2 x acclimatization (fv = fr), for the initial guess."""
-    pio2 = np.repeat(_GUESS_PIO2[None, :], _GUESS_F.size, axis=0)
-    f = np.repeat(_GUESS_F[:, None], _GUESS_PIO2.size, axis=1)
-    g_pio2, state, _ = _make_state(pio2, fio2, rq, f, f, met, gscale, dscale, off, None)
+    """ln x solved on a grid of PIO2 x f_ventilatory x f_renal, for the initial guess (flat array)."""
+    pio2, fv, fr = np.meshgrid(_GUESS_PIO2, _GUESS_F, _GUESS_F, indexing="ij")
+    g_pio2, state, _ = _make_state(pio2.ravel(), fio2, rq, fv.ravel(), fr.ravel(), met, gscale, dscale, off,
+                                   None)
     u, _, _ = _solve_bracketed(g_pio2, state, 80, 1e-12)
     return u
 
 
+def _axis_position(values, grid):
+    """Index of the cell and the weight within it, for a uniform grid (clamped to its ends)."""
+    step = grid[1] - grid[0]
+    pos = np.clip((values - grid[0]) / step, 0.0, grid.size - 1.000001)
+    i = pos.astype(np.intp)
+    return i, pos - i
+
+
 def _initial_guess(args, params):
-    """Bilinear interpolation in the guess table; scalar stand-ins for the other inputs."""
+    """Trilinear interpolation in the guess table; scalar stand-ins (means) for the other inputs."""
     pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = args
-    key = tuple(round(float(np.mean(a)), 6) for a in (fio2_a, rq_a, met, gscale, dscale, off))
+    key = tuple(round(round(float(np.mean(a)) / step) * step, 6)
+                for a, step in zip((fio2_a, rq_a, met, gscale, dscale, off), _GUESS_KEY_STEPS))
     table = _guess_table(*key) if params is None else _guess_table.__wrapped__(*key)
-    step_p = _GUESS_PIO2[1] - _GUESS_PIO2[0]
-    pos_p = np.clip((pio2 - _GUESS_PIO2[0]) / step_p, 0.0, _GUESS_PIO2.size - 1.000001)
-    i = pos_p.astype(np.intp)
-    wp = pos_p - i
-    pos_f = np.clip(0.5 * (fv + fr), 0.0, 1.0) * (_GUESS_F.size - 1)
-    j = np.minimum(pos_f.astype(np.intp), _GUESS_F.size - 2)
-    wf = pos_f - j
-    t00, t01 = table[j, i], table[j, i + 1]
-    t10, t11 = table[j + 1, i], table[j + 1, i + 1]
-    return (1 - wf) * ((1 - wp) * t00 + wp * t01) + wf * ((1 - wp) * t10 + wp * t11)
+    i, wi = _axis_position(pio2, _GUESS_PIO2)
+    j, wj = _axis_position(fv, _GUESS_F)
+    k, wk = _axis_position(fr, _GUESS_F)
+    nf = _GUESS_F.size
+    base = (i * nf + j) * nf + k
+    out = np.zeros_like(wi)
+    for di, w1 in ((0, 1.0 - wi), (1, wi)):
+        for dj, w2 in ((0, 1.0 - wj), (1, wj)):
+            w12 = w1 * w2
+            flat = base + (di * nf + dj) * nf
+            out += w12 * ((1.0 - wk) * table[flat] + wk * table[flat + 1])
+    return out
 
 
 def _solve_bracketed(pio2, state, max_iterations, tolerance):
