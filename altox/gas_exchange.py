@@ -172,16 +172,18 @@ def sea_level_aado2(age_y):
     return _out(2.5 + 0.21 * np.asarray(age_y, dtype=float), age_y)
 
 
-def _po2_for_content(content_ml_dl, hb_g_dl, ph, pco2_mmhg, temp_c, upper_mmhg, p50_mmhg=None):
-    """PO2 whose total content (bound + dissolved) equals ``content``; safeguarded Newton."""
-    factor = np.asarray(blood.virtual_po2(1.0, ph, pco2_mmhg, temp_c, p50_mmhg))
+def _po2_for_content(content_ml_dl, hb_g_dl, factor, upper_mmhg):
+    """PO2 whose total content (bound + dissolved) equals ``content``; safeguarded Newton.
+
+    ``factor`` is the virtual-PO2 factor of the blood (:func:`altox.blood.virtual_po2` of 1 mmHg).
+    """
     cap = blood.HUEFNER_ML_PER_G * hb_g_dl
     lo = np.zeros_like(content_ml_dl)
     hi = np.maximum(np.asarray(upper_mmhg, dtype=float), 1e-6) + np.zeros_like(content_ml_dl)
     # start from the value that ignores dissolved O2
     s0 = np.clip((content_ml_dl - blood.O2_SOLUBILITY_ML_DL_MMHG * hi) / cap, 1e-6, 1 - 1e-9)
     p = np.clip(np.asarray(blood.standard_po2_for_saturation(s0)) / factor, lo, hi)
-    for _ in range(12):  # usually 3-4 steps from this start; stops when every residual < 1e-11 mL/dL
+    for _ in range(12):  # usually 3-4 steps from this start; stops when every residual < 1e-9 mL/dL (PO2 to ~1e-8 mmHg)
         v = p * factor
         cube = v**3 + 150.0 * v
         s = cube / (cube + 23400.0)
@@ -190,7 +192,7 @@ def _po2_for_content(content_ml_dl, hb_g_dl, ph, pco2_mmhg, temp_c, upper_mmhg, 
         df = cap * ds_dv * factor + blood.O2_SOLUBILITY_ML_DL_MMHG
         lo = np.where(f < 0, p, lo)
         hi = np.where(f > 0, p, hi)
-        if np.max(np.abs(f)) < 1e-11:
+        if np.max(np.abs(f)) < 1e-9:
             break
         step = p - f / df
         p = np.where((step > lo) & (step < hi), step, 0.5 * (lo + hi))
@@ -243,25 +245,24 @@ def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmh
     hb = np.asarray(hb_g_dl, dtype=float)
     cap = blood.HUEFNER_ML_PER_G * hb
     sol = blood.O2_SOLUBILITY_ML_DL_MMHG
-    s_alv = np.asarray(blood.saturation(pa, ph, pco2_mmhg, temp_c, p50_mmhg))
+    factor = np.asarray(blood.virtual_po2(1.0, ph, pco2_mmhg, temp_c, p50_mmhg))   # once for all curve uses
+    s_alv = np.asarray(blood.standard_saturation(pa * factor))
     c_alv = cap * s_alv + sol * pa
     avd = np.asarray(av_difference_ml_dl, dtype=float)
     # mixed venous, from blood equilibrated with alveolar gas (first pass)
     s_ven = np.clip((c_alv - avd) / cap, 1e-4, 0.999)
-    pv = np.minimum(np.asarray(blood.po2_for_saturation(s_ven, ph, pco2_mmhg, temp_c, p50_mmhg)), pa)
+    pv = np.minimum(np.asarray(blood.standard_po2_for_saturation(s_ven)) / factor, pa)
     gap = np.maximum(pa - pv, 1e-9)
     beta_ml_ml = (cap * (s_alv - s_ven) / gap + sol) / 100.0
     ratio = np.asarray(dlo2_ml_min_mmhg, dtype=float) / (beta_ml_ml * np.asarray(cardiac_output_ml_min))
     p_end = pa - (pa - pv) * np.exp(-ratio)
-    s_end = np.asarray(blood.saturation(p_end, ph, pco2_mmhg, temp_c, p50_mmhg))
+    s_end = np.asarray(blood.standard_saturation(p_end * factor))
     c_end = cap * s_end + sol * p_end
     qs = np.asarray(shunt_fraction, dtype=float)
     c_art = c_end - qs * avd / (1.0 - qs)
-    shape = np.broadcast(pa, hb, qs, np.asarray(ph), np.asarray(pco2_mmhg), np.asarray(temp_c)).shape
+    shape = np.broadcast(pa, hb, qs, factor).shape
     pao2_art = _po2_for_content(np.broadcast_to(c_art, shape).astype(float), np.broadcast_to(hb, shape),
-                                np.broadcast_to(ph, shape), np.broadcast_to(pco2_mmhg, shape),
-                                np.broadcast_to(temp_c, shape), np.broadcast_to(p_end, shape),
-                                None if p50_mmhg is None else np.broadcast_to(p50_mmhg, shape))
+                                np.broadcast_to(factor, shape), np.broadcast_to(p_end, shape))
     return _out(pao2_art, pao2_mmhg, hb_g_dl, shunt_fraction, ph, pco2_mmhg, temp_c)
 
 
