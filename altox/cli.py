@@ -11,6 +11,7 @@ from .errors import AltoxError, ProfileError
 
 app = typer.Typer(
     add_completion=False,
+    rich_markup_mode=None,       # plain help text: no rich import on the --help path, reads in any terminal
     no_args_is_help=True,
     help="Plan hypoxic exposure: per-leg physiology of ascent itineraries and flight profiles, "
          "checked against published guidance. Guidance only; never a clearance.",
