@@ -186,6 +186,25 @@ def range_cmd(
     run_guarded(body)
 
 
+def fitness_lines(results: list) -> list:
+    """Plain lines of fitness-to-fly results (shared by this command and `altox plan`)."""
+    lines = []
+    for r in results:
+        head = r.get("name", "Passenger")
+        lines.append(f"{head}: cabin {r['cabin_altitude_ft']:,.0f} ft (ground values at "
+                     f"{r['ground_elevation_ft']:,.0f} ft)")
+        for key in ("regression", "model"):
+            est = r.get(key)
+            if not est:
+                continue
+            s = f", SaO2 {est['sao2_pct']:.0f} %" if "sao2_pct" in est else ""
+            lines.append(f"  {est['method']}: PaO2 {est['pao2_mmhg']:.1f} mmHg ({est['pao2_kpa']:.2f} kPa){s}; "
+                         f"BTS 2022: {est['bts']['reading']}")
+        lines += [f"  note: {n}" for n in r["notes"]]
+        lines.append(f"  {r['caution']}")
+    return lines
+
+
 @app.command("fitness-to-fly")
 def fitness_cmd(
     file: Optional[str] = typer.Argument(None, help="Flight plan (YAML); its people with ground values are assessed."),
@@ -232,19 +251,7 @@ def fitness_cmd(
         if json_out:
             typer.echo(json.dumps(_jsonable(results if file else results[0]), indent=2))
             return
-        for r in results:
-            head = r.get("name", "Passenger")
-            typer.echo(f"{head}: cabin {r['cabin_altitude_ft']:,.0f} ft (ground values at "
-                       f"{r['ground_elevation_ft']:,.0f} ft)")
-            for key in ("regression", "model"):
-                est = r.get(key)
-                if not est:
-                    continue
-                s = f", SaO2 {est['sao2_pct']:.0f} %" if "sao2_pct" in est else ""
-                typer.echo(f"  {est['method']}: PaO2 {est['pao2_mmhg']:.1f} mmHg ({est['pao2_kpa']:.2f} kPa){s}; "
-                           f"BTS 2022: {est['bts']['reading']}")
-            for n in r["notes"]:
-                typer.echo(f"  note: {n}")
-            typer.echo(f"  {r['caution']}")
+        for line in fitness_lines(results):
+            typer.echo(line)
 
     run_guarded(body)

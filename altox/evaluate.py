@@ -265,6 +265,14 @@ def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, pr
 
     extras = {"oxygen": oxygen_review(plan, result), "decompression": decompression_review(plan, result)}
     people = plan.party if plan.kind == "expedition" else plan.aboard
+    if plan.kind == "flight":
+        from .individual import occupant_fitness_to_fly
+
+        with_ground = [o for o in plan.aboard if o.ground_pao2_mmhg is not None or o.ground_spo2 is not None]
+        if with_ground:
+            cabin_ft = float(np.max(result.samples["cabin_pressure_altitude_ft"]))
+            ground_ft = float(plan.departure_elevation_m) / M_PER_FT
+            extras["fitness_to_fly"] = [occupant_fitness_to_fly(o, cabin_ft, ground_ft) for o in with_ground]
     if members and people:
         extras["ranges"] = expected_range(plan, result, n=members, seed=DEFAULT_SEED if seed is None else seed,
                                           progress=progress)

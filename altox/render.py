@@ -256,6 +256,11 @@ def extras_renderables(result) -> list:
             table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
                           f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no")
         out.append(table)
+    if result.extras.get("fitness_to_fly"):
+        from .cli_people import fitness_lines
+
+        out.append(Text("Fitness to fly (guidance; British Thoracic Society thresholds)\n"
+                        + "\n".join(fitness_lines(result.extras["fitness_to_fly"]))))
     if result.extras.get("readings") is not None:
         from .cli_people import readings_renderables
 

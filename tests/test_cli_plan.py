@@ -120,3 +120,15 @@ def test_users_own_rule_file_from_plan_and_command_line(tmp_path):
     broken.write_text(LOCAL_RULES.replace('value: "9,000 ft"', 'value: "9,000"'))
     proc = run("plan", str(ROOT / "profiles" / "piston-ridge-crossing.yaml"), "--rules", str(broken))
     assert proc.returncode == 2 and "broken.yaml" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_medical_transfer_plan_reports_fitness_to_fly():
+    # a patient with lung disease and ground values: altox plan compares the predicted PaO2 at the
+    # cabin altitude with the BTS 2022 thresholds (Coker RK et al. Thorax 2022;77:329), as guidance
+    data = json.loads(run("plan", str(ROOT / "profiles" / "medevac-transfer.yaml"), "--json", "--members", "0").stdout)
+    (fit,) = data["fitness_to_fly"]
+    assert fit["lung_disease"] and fit["regression"]["method"].startswith("Dillard")
+    assert fit["regression"]["bts"]["checks"]["pao2"]["threshold_kpa"] == 6.6
+    assert "not a clearance" in fit["caution"]
+    out = run("plan", str(ROOT / "profiles" / "medevac-transfer.yaml"), "--members", "0").stdout
+    assert "Fitness to fly" in out and "GUIDANCE ONLY" in out
