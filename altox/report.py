@@ -267,11 +267,48 @@ def _people(result) -> str:
         for text, names in texts.items():
             parts.append(f'<p class="note"><strong>Prevention (guidance) for {_e(", ".join(names))}:</strong> '
                          f"{_e(text)}</p>")
-    parts.append('<p class="note">Per-person values come from the model with the person\'s age and hemoglobin; '
-                 "disease, history and measurements recorded in the plan are not part of the saturation "
-                 "figures. People vary widely: check people, not numbers.</p>")
+    parts.extend(_people_extras(result))
+    parts.append('<p class="note">Per-person values come from the model with the person\'s age, hemoglobin, '
+                 "ventilatory response category and acetazolamide, and a venous admixture fitted to a stated "
+                 "home or ground SpO2/PaO2; history of altitude illness enters the risk category, not the "
+                 "saturation figures. People vary widely: check people, not numbers.</p>")
     parts.append("</section>")
     return "\n".join(parts)
+
+
+def _people_extras(result) -> list[str]:
+    """Expected ranges, readings and fitness to fly, where the plan has them."""
+    parts = []
+    ranges = result.extras.get("ranges")
+    if ranges and ranges.get("people"):
+        lo_p, hi_p = ranges["percentiles"][0], ranges["percentiles"][-1]
+        rows = []
+        for person in ranges["people"]:
+            worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
+            pct = worst["sao2_pct_percentiles"]
+            rows.append(([_e(person["name"]), str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
+                          f"{pct[0]:.0f}&ndash;{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no"], ""))
+        parts.append(_table(f"Expected SaO2 at each person's worst leg: central and {lo_p:g}th&ndash;{hi_p:g}th "
+                            f"percentile of {ranges['n']} simulated people",
+                            ["Name", "Leg", "Central %", "Range %", "Asleep"], [False, True, True, True, False],
+                            rows))
+    readings = result.extras.get("readings")
+    if readings:
+        flagged = [(r, f) for r in readings for f in r["flags"]]
+        parts.append(f"<h3>Readings against the expected range ({len(readings)} readings, "
+                     f"{len(flagged)} flags)</h3>")
+        if flagged:
+            parts.append('<ul class="plain">' + "".join(
+                f"<li><strong>Day {r['day']} {_e(r['member'])}:</strong> {_e(f['message'])}"
+                + (f" <em>{_e(f['recommendation'])}</em>" if "recommendation" in f else "")
+                + f" <span class=\"note\">[{_e(f['source'])}]</span></li>" for r, f in flagged) + "</ul>")
+    fit = result.extras.get("fitness_to_fly")
+    if fit:
+        from .cli_people import fitness_lines
+
+        parts.append("<h3>Fitness to fly (guidance; British Thoracic Society thresholds)</h3>")
+        parts.append("<pre class=\"plain\">" + _e("\n".join(fitness_lines(fit))) + "</pre>")
+    return parts
 
 
 def _place_cells(leg, expedition: bool, conv) -> list[str]:
