@@ -145,10 +145,21 @@ def point_range(altitude_m, *, person=None, days=0.0, sleeping=False, atmosphere
 
 
 def _people_of(plan, result):
-    """Plan people (Member/Occupant objects, which carry every factor) in the result's order."""
-    source = plan.party if plan.kind == "expedition" else plan.aboard
+    """Plan people (Member/Occupant objects, which carry every factor) in the result's order.
+
+    People aboard a flight with a ground SpO2 carry it as the SpO2 'at home' (the departure field),
+    so that their venous admixture is fitted to it as in :func:`altox.evaluate.evaluate_plan`.
+    """
+    from types import SimpleNamespace
+
+    source = list(plan.party if plan.kind == "expedition" else plan.aboard)
+    if plan.kind == "flight":
+        ground_m = float(plan.departure_elevation_m)
+        source = [SimpleNamespace(name=o.name, role=o.role, age_y=o.age_y, hemoglobin_g_dl=o.hemoglobin_g_dl,
+                                  home_spo2=o.ground_spo2, home_altitude_m=ground_m if o.ground_spo2 else None)
+                  for o in source]
     if result is None:
-        return list(source)
+        return source
     by_name = {m.name: m for m in source}
     return [by_name.get(p.name, p) for p in result.people]
 

@@ -287,8 +287,8 @@ def _people_extras(result) -> list[str]:
             worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
             pct = worst["sao2_pct_percentiles"]
             rows.append(([_e(person["name"]), str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
-                          f"{pct[0]:.0f}&ndash;{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no"], ""))
-        parts.append(_table(f"Expected SaO2 at each person's worst leg: central and {lo_p:g}th&ndash;{hi_p:g}th "
+                          f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no"], ""))
+        parts.append(_table(f"Expected SaO2 at each person's worst leg: central and {lo_p:g}th to {hi_p:g}th "
                             f"percentile of {ranges['n']} simulated people",
                             ["Name", "Leg", "Central %", "Range %", "Asleep"], [False, True, True, True, False],
                             rows))
@@ -307,7 +307,8 @@ def _people_extras(result) -> list[str]:
         from .cli_people import fitness_lines
 
         parts.append("<h3>Fitness to fly (guidance; British Thoracic Society thresholds)</h3>")
-        parts.append("<pre class=\"plain\">" + _e("\n".join(fitness_lines(fit))) + "</pre>")
+        parts.append('<ul class="plain">' + "".join(f"<li>{_e(line.strip())}</li>" for line in fitness_lines(fit))
+                     + "</ul>")
     return parts
 
 
