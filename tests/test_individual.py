@@ -142,3 +142,18 @@ def test_older_age_never_lowers_alveolar_arterial_difference(alt, days, age, d_a
     young = assess(np.array([alt]), age_y=age, **kw)
     old = assess(np.array([alt]), age_y=age + d_age, **kw)
     assert old["alveolar_arterial_mmhg"][0] >= young["alveolar_arterial_mmhg"][0] - 1e-6
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "Known gap, not tuned away: with its metabolic acidosis alone the model raises resting SaO2 at 4,400 m "
+    "by 0.6-1.3 points (days 1-7) against +4 measured with the renal inhibitor benzolamide; the central "
+    "drive's response to acidosis (Kc = 3 per pH unit) is too weak for this. See docs/individual.md."))
+def test_renal_carbonic_anhydrase_inhibition_against_swenson_1991():
+    # Swenson ER, Leatham KL, Roach RC, Schoene RB, Mills WJ Jr, Hackett PH. Renal carbonic anhydrase
+    # inhibition reduces high altitude sleep periodic breathing. Respir Physiol 1991;86:333-343
+    # (abstract read): at 4,400 m, daytime SaO2 81 -> 85 % and venous HCO3 18.9 -> 14.8 mM with
+    # benzolamide, a renal-selective inhibitor (so its action is the metabolic acidosis this model has).
+    # Comparison: the model's day-3 SaO2 gain for the measured bicarbonate shift; tolerance 1.5 points.
+    placebo = assess(4400.0, atmosphere="mountain", days=3.0)
+    drug = assess(4400.0, atmosphere="mountain", days=3.0, hco3_offset_mmol_l=-(18.9 - 14.8))
+    assert drug["sao2_pct"] - placebo["sao2_pct"] == pytest.approx(85.0 - 81.0, abs=1.5)
