@@ -181,6 +181,23 @@ def ph_from_bicarbonate(hco3_mmol_l, pco2_mmhg):
 # metabolic (renal) compensation of a respiratory alkalosis: fall in HCO3 per mmHg fall in PCO2
 ACUTE_HCO3_PER_MMHG = 0.2     # acute: 2 mmol/L per 10 mmHg  [AdrogueMadias2010]
 CHRONIC_HCO3_PER_MMHG = 0.5   # chronic (days): 4-5 mmol/L per 10 mmHg  [AdrogueMadias2010]
+# respiratory acidosis (PCO2 above 40): 1 and 3.5 mmol/L per 10 mmHg  [AdrogueMadias2010]
+ACUTE_HCO3_PER_MMHG_ACIDOSIS = 0.1
+CHRONIC_HCO3_PER_MMHG_ACIDOSIS = 0.35
+
+
+def secondary_response_slopes(compensation):
+    """Bicarbonate change per mmHg of PCO2 below and above 40 mmHg, for a degree of compensation 0-1.
+
+    Returns
+    -------
+    (k_below, k_above) : numeric
+        [mmol/L per mmHg]
+    """
+    f = np.clip(np.asarray(compensation, dtype=float), 0.0, 1.0)
+    k_below = ACUTE_HCO3_PER_MMHG + (CHRONIC_HCO3_PER_MMHG - ACUTE_HCO3_PER_MMHG) * f
+    k_above = ACUTE_HCO3_PER_MMHG_ACIDOSIS + (CHRONIC_HCO3_PER_MMHG_ACIDOSIS - ACUTE_HCO3_PER_MMHG_ACIDOSIS) * f
+    return k_below, k_above
 
 
 def compensated_bicarbonate(pco2_mmhg, compensation=0.0, hco3_normal_mmol_l=NORMAL_HCO3_MMOL_L):
@@ -207,9 +224,7 @@ def compensated_bicarbonate(pco2_mmhg, compensation=0.0, hco3_normal_mmol_l=NORM
         Bicarbonate. [mmol/L]
     """
     pco2 = np.asarray(pco2_mmhg, dtype=float)
-    f = np.clip(np.asarray(compensation, dtype=float), 0.0, 1.0)
-    k_low = ACUTE_HCO3_PER_MMHG + (CHRONIC_HCO3_PER_MMHG - ACUTE_HCO3_PER_MMHG) * f
-    k_high = 0.1 + (0.35 - 0.1) * f
+    k_low, k_high = secondary_response_slopes(compensation)
     k = np.where(pco2 < STANDARD_PCO2_MMHG, k_low, k_high)
     hco3 = hco3_normal_mmol_l - k * (STANDARD_PCO2_MMHG - pco2)
     return _out(np.maximum(hco3, 1.0), pco2_mmhg, compensation, hco3_normal_mmol_l)

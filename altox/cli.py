@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import sys
 from typing import Optional
 
 import typer
@@ -151,7 +150,9 @@ def _load_and_evaluate(path: str, rules: list[str], members: int = 0, seed: Opti
         plan = plan.model_copy(update={"rules": [r for r in rules if not _is_file(r)] or list(plan.rules)})
         files = [r for r in rules if _is_file(r)]
         if files:
-            plan = plan.model_copy(update={"rule_file": str(__import__("pathlib").Path(files[0]).resolve())})
+            from pathlib import Path
+
+            plan = plan.model_copy(update={"rule_file": str(Path(files[0]).resolve())})
     result = evaluate_plan(plan)
     from .cli_people import _progress_callback
 

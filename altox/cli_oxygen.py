@@ -287,8 +287,9 @@ def room(
         else:
             t = parse_quantity(target, "length", field="--target")
             res = room_o2_fraction(t, pb_mmhg=pb, atmosphere=atmosphere)
-            res.update(room_equivalent_altitude(min(res["o2_fraction"], 1.0), pb_mmhg=pb, atmosphere=atmosphere))
-            res["o2_fraction"] = room_o2_fraction(t, pb_mmhg=pb, atmosphere=atmosphere)["o2_fraction"]
+            needed = res["o2_fraction"]
+            res.update(room_equivalent_altitude(min(needed, 1.0), pb_mmhg=pb, atmosphere=atmosphere))
+            res["o2_fraction"] = needed   # the fraction the target needs, even above 1 (infeasible)
         res.update(room_atmosphere_check(min(res["o2_fraction"], 1.0), pb))
         if json_out:
             _echo_json(res)

@@ -110,7 +110,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     what a person would have without it (the case that matters when the oxygen fails).
     """
     from .timeline import expand
-    from .ventilation import acclimatization_history
+    from .ventilation import acclimatization_history, model_coefficients
 
     tl = expand(plan)
     people = people_override if people_override is not None else _people(plan)
@@ -119,8 +119,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     n = len(tl)
     pb = np.broadcast_to(np.asarray(tl.pb_mmhg, dtype=float), (len(everyone), n))
     if plan.kind == "expedition":
-        home_pb = np.array([float(barometric_pressure(min(max(p.home_altitude_m, -500.0), 9000.0), "mountain"))
-                            for p in everyone])
+        home_m = np.clip([p.home_altitude_m for p in everyone], -500.0, 9000.0)
+        home_pb = np.asarray(barometric_pressure(home_m, "mountain"))
         pio2 = np.asarray(inspired_po2(pb))
         f_v, f_r = acclimatization_history(pio2, tl.duration_h, np.asarray(inspired_po2(home_pb)))
     else:
@@ -132,9 +132,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
 
     dt = np.asarray(tl.duration_h, dtype=float)
     floor = plan.dose_floor_m
-    # no resting steady state (inspired PO2 too low on air) or the alveolar gas equation below zero
-    from .ventilation import model_coefficients
-
+    # no resting steady state, the alveolar gas equation below zero, or beyond the validated range
     min_pio2 = float(model_coefficients()["validity"]["min_inspired_po2_mmhg"]["value"])
     valid = (np.asarray(res["solver_converged"]) & ~np.asarray(res["alveolar_po2_clamped"])
              & (np.asarray(res["inspired_po2_mmhg"]) >= min_pio2))

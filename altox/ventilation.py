@@ -127,9 +127,7 @@ def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hy
     factor = alveolar_gas_factor(fio2_a, rq_a)
     gain = gscale * p.hypoxic_gain_acute_mmhg * (1.0 + (p.acclimatized_gain_multiplier - 1.0) * fv)
     phi_sl = _sea_level_phi()
-    k_acute, k_chronic = blood.ACUTE_HCO3_PER_MMHG, blood.CHRONIC_HCO3_PER_MMHG
-    k_low = k_acute + (k_chronic - k_acute) * np.clip(fr, 0.0, 1.0)
-    k_high = 0.1 + 0.25 * np.clip(fr, 0.0, 1.0)
+    k_low, k_high = blood.secondary_response_slopes(fr)
     hco3_n = blood.NORMAL_HCO3_MMOL_L + off
     base = p.baseline_paco2_mmhg * met
     log_sol = np.log10(blood.CO2_SOLUBILITY_MMOL_L_MMHG)
@@ -356,12 +354,6 @@ def _solve_bracketed(pio2, state, max_iterations, tolerance):
     g = state(u)[0]
     converged = (np.abs(g) <= tolerance * 10.0) & ~pinned_low & ~pinned_high
     return u, converged, used
-
-
-def inspired_and_equilibrium(pb_mmhg, fio2=AIR_FIO2, rq=0.8, body_temp_c=37.0, days=0.0):
-    """Convenience: PIO2 from pressure, then :func:`equilibrium` after ``days`` at altitude."""
-    f_v, f_r = acclimatization_fractions(days)
-    return equilibrium(inspired_po2(pb_mmhg, fio2, body_temp_c), fio2, rq, f_v, f_r)
 
 
 def acclimatization_history(pio2_mmhg, duration_h, initial_pio2_mmhg=None,
