@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .chain import assess
+from .sampling import assess_along
 from .gas_exchange import inspired_po2
 from .atmosphere import barometric_pressure
 from .units import M_PER_FT
@@ -103,14 +103,15 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
 
     The reference person and every member are evaluated together: one call of
     :func:`altox.assess` over an array shaped (people, samples).  Expeditions carry
-    acclimatization along the timeline (:func:`altox.ventilation.acclimatization_history`),
+    acclimatization along the timeline (:func:`altox.acclimatization.acclimatization_history`),
     starting from each person's home altitude; a flight is acute exposure.
 
     Values are on air: planned supplemental oxygen is shown as a flag, and the physiology is
     what a person would have without it (the case that matters when the oxygen fails).
     """
     from .timeline import expand
-    from .ventilation import acclimatization_history, model_coefficients
+    from .acclimatization import acclimatization_history
+    from .ventilation import model_coefficients
 
     tl = expand(plan)
     people = people_override if people_override is not None else _people(plan)
@@ -126,7 +127,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     else:
         f_v = f_r = np.zeros((len(everyone), n))
     factors = _factor_keywords(plan, everyone, people_override is None, tl)
-    res = assess(np.broadcast_to(tl.altitude_m, (len(everyone), n)), pb_mmhg=pb,
+    res = assess_along(tl.time_h, altitude_m=np.broadcast_to(tl.altitude_m, (len(everyone), n)), pb_mmhg=pb,
                  atmosphere="isa" if plan.kind == "flight" else "mountain",
                  f_ventilatory=f_v, f_renal=f_r, **factors)
 

@@ -9,7 +9,9 @@ people x members x samples, and reports percentiles (default 5th, 50th, 95th) of
 sample and per leg, beside the central value (the person's own factors, no spread).
 
 Memory is bounded by evaluating the timeline in chunks of samples (every chunk holds all
-members, so the percentiles are exact); a callback reports progress after each chunk.  Sleeping
+members, so the percentiles are exact); a callback reports progress after each chunk.  The full
+chain is solved at the timeline's knots and every sample in between is interpolated in time
+(:mod:`altox.sampling`, with its error bound).  Sleeping
 samples use the sleep drive (``sleep.drive_scale``).  Values are on air, like
 :func:`altox.evaluate.evaluate_plan`: planned oxygen is not applied.
 
@@ -183,7 +185,8 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     percentiles : sequence of float
         Percentiles to report, 0-100.
     progress : callable, optional
-        ``progress(done, total)`` after each chunk, in samples of the timeline.
+        ``progress(done, total)`` after each chunk, in units of work (knots solved, then samples
+        summarised); ``done == total`` at the end.
     max_chunk_elements : int
         Upper bound of people x members x samples evaluated at once (memory).
 
@@ -204,10 +207,11 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
         Bad ``n`` or ``percentiles``.
     """
     from .atmosphere import barometric_pressure
+    from .acclimatization import acclimatization_history
     from .chain import assess
     from .gas_exchange import inspired_po2
+    from .sampling import DEFAULT_KNOT_SPACING_H, Knots, assess_along
     from .timeline import expand
-    from .ventilation import acclimatization_history
 
     p = _check_args(n, percentiles)
     tl = expand(plan)
@@ -235,23 +239,36 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
         return np.array([d[key] for d in dicts], dtype=float)[:, None]
 
     centrals = [d[0] for d in drawn]
-    cres = assess(np.broadcast_to(alt, (n_people, n_samples)), pb_mmhg=np.broadcast_to(pb, (n_people, n_samples)),
-                  atmosphere=atmosphere, f_ventilatory=f_v, f_renal=f_r, drive_scale=drive[None, :],
-                  **{k: col(centrals, k) for k in centrals[0]})
+    cres = assess_along(tl.time_h, altitude_m=np.broadcast_to(alt, (n_people, n_samples)),
+                        pb_mmhg=np.broadcast_to(pb, (n_people, n_samples)), atmosphere=atmosphere,
+                        f_ventilatory=f_v, f_renal=f_r, drive_scale=drive[None, :],
+                        **{k: col(centrals, k) for k in centrals[0]})
     central = np.asarray(cres["sao2_pct"])
     member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
-    out = np.empty((len(p), n_people, n_samples))
+    # the full solve at the knots of the timeline (sample ends, segment ends, at most an hour apart),
+    # then every sample by interpolation in time (altox.sampling), chunked to bound memory
+    knots = Knots(tl.time_h, (pb, drive), DEFAULT_KNOT_SPACING_H)
+    k_index = knots.index
+    n_knots = k_index.size
+    total = n_knots + n_samples
+    sao2_k = np.empty((n_people, n, n_knots))
     step = max(1, int(max_chunk_elements // max(1, n_people * n)))
+    for a in range(0, n_knots, step):
+        b = min(n_knots, a + step)
+        ks = k_index[a:b]
+        r = assess(np.broadcast_to(alt[ks], (n_people, n, b - a)),
+                   pb_mmhg=np.broadcast_to(pb[ks], (n_people, n, b - a)), atmosphere=atmosphere,
+                   f_ventilatory=f_v[:, None, ks], f_renal=f_r[:, None, ks], drive_scale=drive[None, None, ks],
+                   **member_kw)
+        sao2_k[:, :, a:b] = r["sao2_pct"]
+        if progress is not None:
+            progress(b, total)
+    out = np.empty((len(p), n_people, n_samples))
     for a in range(0, n_samples, step):
         b = min(n_samples, a + step)
-        sl = slice(a, b)
-        r = assess(np.broadcast_to(alt[sl], (n_people, n, b - a)),
-                   pb_mmhg=np.broadcast_to(pb[sl], (n_people, n, b - a)), atmosphere=atmosphere,
-                   f_ventilatory=f_v[:, None, sl], f_renal=f_r[:, None, sl], drive_scale=drive[None, None, sl],
-                   **member_kw)
-        out[:, :, sl] = np.percentile(np.asarray(r["sao2_pct"]), p, axis=1)
+        out[:, :, a:b] = np.percentile(knots.interpolate(sao2_k, slice(a, b)), p, axis=1)
         if progress is not None:
-            progress(b, n_samples)
+            progress(n_knots + b, total)
 
     people_out = []
     for j in range(n_people):
