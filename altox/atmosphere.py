@@ -79,22 +79,34 @@ def _shape_like(result, template):
     return float(result) if result.ndim == 0 else result
 
 
+#: ICAO standard atmosphere layer table (Doc 7488/3): geopotential base [m], base temperature [K],
+#: lapse rate [K/m], base pressure [Pa]; the same numbers as ambiance's ``CONST.LAYER_SPEC_PROP``
+#: (a test asserts they are identical), kept here so that a plan does not import ambiance (and
+#: scipy with it) just to read them. ambiance stays the reference implementation.
+ISA_LAYERS = (
+    (-5000.0, 320.65, -0.0065, 177687.0),
+    (0.0, 288.15, -0.0065, 101325.0),
+    (11000.0, 216.65, 0.0, 22632.0),
+    (20000.0, 216.65, 0.001, 5474.87),
+    (32000.0, 228.65, 0.0028, 868.014),
+    (47000.0, 270.65, 0.0, 110.906),
+    (51000.0, 270.65, -0.0028, 66.9384),
+    (71000.0, 214.65, -0.002, 3.95639),
+    (80000.0, 196.65, -0.002, 0.886272),
+)
+ISA_G0_M_S2 = 9.80665          # standard gravity
+ISA_R_J_KG_K = 287.05287       # specific gas constant of air
+ISA_EARTH_RADIUS_M = 6356766.0  # nominal Earth radius for geopotential height
 _ISA_TABLE = None
 
 
 def _isa_layers():
-    """Layer table of the standard atmosphere, taken from ambiance's own constants (so ambiance stays
-    the reference): geopotential base [m], base temperature [K], lapse rate [K/m], base pressure [Pa]."""
+    """Layer table of the standard atmosphere as arrays: geopotential base [m], base temperature [K],
+    lapse rate [K/m], base pressure [Pa], then g0, R and the Earth's radius."""
     global _ISA_TABLE
     if _ISA_TABLE is None:
-        from ambiance.ambiance import CONST
-
-        spec = CONST.LAYER_SPEC_PROP
-        h_base = np.array([row[0] for row in spec], dtype=float)
-        t_base = np.array([row[1] for row in spec], dtype=float)
-        beta = np.array([row[2] for row in spec], dtype=float)
-        p_base = np.array([row[3] for row in spec], dtype=float)
-        _ISA_TABLE = (h_base, t_base, beta, p_base, float(CONST.g_0), float(CONST.R), float(CONST.r))
+        h_base, t_base, beta, p_base = (np.array(col, dtype=float) for col in zip(*ISA_LAYERS))
+        _ISA_TABLE = (h_base, t_base, beta, p_base, ISA_G0_M_S2, ISA_R_J_KG_K, ISA_EARTH_RADIUS_M)
     return _ISA_TABLE
 
 
@@ -103,7 +115,7 @@ def isa_pressure_pa(altitude_m):
 
     ``H = r h / (r + h)``; in a layer with lapse ``beta``:
     ``p = p_b (1 + beta/T_b (H - H_b))^(-g0 / (R beta))``, isothermal: ``p = p_b exp(-g0 (H - H_b) / (R T_b))``.
-    Layer constants are ambiance's; a test holds this to ambiance within 1e-9 relative over its
+    Layer constants are ambiance's (:data:`ISA_LAYERS`); a test holds this to ambiance within 1e-9 relative over its
     whole range. No range check here (see :func:`barometric_pressure`). [Pa]
     """
     h_base, t_base, beta, p_base, g0, r_gas, r_earth = _isa_layers()

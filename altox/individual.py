@@ -71,9 +71,20 @@ def _value(section: str, key: str) -> float:
 
 
 def _norm_ppf(p):
-    from scipy.special import ndtri
+    """Standard normal quantile (the standard library's, exact to double precision)."""
+    from statistics import NormalDist
 
-    return ndtri(np.asarray(p, dtype=float))
+    q = np.asarray(p, dtype=float)
+    inv = NormalDist().inv_cdf
+    return np.array([inv(v) for v in q.ravel()]).reshape(q.shape) if q.ndim else inv(float(q))
+
+
+def _norm_cdf(x):
+    """Standard normal distribution function, 0.5 erfc(-x / sqrt 2)."""
+    from math import erfc, sqrt
+
+    z = np.asarray(x, dtype=float)
+    return np.array([0.5 * erfc(-v / sqrt(2.0)) for v in z.ravel()]).reshape(z.shape) if z.ndim else 0.5 * erfc(-float(z) / sqrt(2.0))
 
 
 def hvr_gain_scale(category=None):

@@ -26,7 +26,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import OutOfRangeError
-from .individual import _get, _home_shunt, _value, coefficients, hvr_gain_scale
+from .individual import _get, _home_shunt, _norm_cdf, _norm_ppf, _value, coefficients, hvr_gain_scale
 
 __all__ = ["expected_range", "point_range", "draw_factors", "DEFAULT_SEED", "DEFAULT_PERCENTILES",
            "DEFAULT_MEMBERS", "MAX_CHUNK_ELEMENTS"]
@@ -71,8 +71,6 @@ def draw_factors(person, z):
         Keys: ``age_y``, ``hb_g_dl``, ``hypoxic_gain_scale``, ``hco3_offset_mmol_l``,
         ``shunt_fraction``, ``p50_mmhg``.
     """
-    from scipy.special import ndtr, ndtri
-
     from .blood import STANDARD_P50_MMHG
     from .gas_exchange import shunt_fraction_for_age
     from .ventilation import model_coefficients
@@ -89,7 +87,7 @@ def draw_factors(person, z):
     zg = z[0]
     if cat is not None:
         k = _TERTILES[cat]
-        zg = ndtri((k + ndtr(zg)) / 3.0)  # the same member rank, inside that third
+        zg = _norm_ppf((k + _norm_cdf(zg)) / 3.0)  # the same member rank, inside that third
     n = z.shape[1]
     central = {"age_y": age, "hb_g_dl": hb0, "hypoxic_gain_scale": hvr_gain_scale(cat),
                "hco3_offset_mmol_l": acz, "shunt_fraction": qs0, "p50_mmhg": STANDARD_P50_MMHG}
@@ -245,7 +243,7 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
                         **{k: col(centrals, k) for k in centrals[0]})
     central = np.asarray(cres["sao2_pct"])
     member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
-    # the full solve at the knots of the timeline (sample ends, segment ends, at most an hour apart),
+    # the full solve at the knots of the timeline (segment ends, at most DEFAULT_KNOT_SPACING_H apart),
     # then every sample by interpolation in time (altox.sampling), chunked to bound memory
     knots = Knots(tl.time_h, (pb, drive), DEFAULT_KNOT_SPACING_H)
     k_index = knots.index

@@ -92,6 +92,29 @@ def test_mountain_out_of_range_and_unknown_model():
         barometric_pressure(1000.0, "arctic")
 
 
+def test_isa_layer_table_is_ambiances():
+    # the embedded ICAO layer table and constants are exactly ambiance's (ambiance stays the reference)
+    from ambiance.ambiance import CONST
+
+    from altox import atmosphere
+
+    assert [tuple(row[:4]) for row in CONST.LAYER_SPEC_PROP] == list(atmosphere.ISA_LAYERS)
+    assert (CONST.g_0, CONST.R, CONST.r) == (atmosphere.ISA_G0_M_S2, atmosphere.ISA_R_J_KG_K,
+                                             atmosphere.ISA_EARTH_RADIUS_M)
+
+
+def test_norm_quantiles_match_scipy():
+    # the standard-library normal quantiles used for response categories equal scipy's ndtri/ndtr
+    from scipy.special import ndtr, ndtri
+
+    from altox.individual import _norm_cdf, _norm_ppf
+
+    p = np.linspace(0.001, 0.999, 501)
+    np.testing.assert_allclose(_norm_ppf(p), ndtri(p), rtol=1e-12, atol=1e-12)
+    z = np.linspace(-6.0, 6.0, 501)
+    np.testing.assert_allclose(_norm_cdf(z), ndtr(z), rtol=1e-12, atol=1e-15)
+
+
 def test_closed_form_isa_equals_ambiance_over_its_whole_range():
     # the fast path must be ambiance's own formulas: identical within 1e-9 relative, -5004 to 81020 m
     from ambiance import Atmosphere

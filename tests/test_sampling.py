@@ -111,7 +111,8 @@ def test_flight_profile_changes_every_sample_so_every_sample_is_a_knot():
 def test_assess_along_flags_are_conservative():
     t = np.arange(0.0, 6.0, 0.1)
     f = np.linspace(0.0, 0.2, t.size)
-    r = assess_along(t, altitude_m=np.full(t.size, 8000.0), atmosphere="mountain", f_ventilatory=f, f_renal=f)
+    r = assess_along(t, spacing_h=1.0, altitude_m=np.full(t.size, 8000.0), atmosphere="mountain",
+                     f_ventilatory=f, f_renal=f)
     ref = assess(np.full(t.size, 8000.0), atmosphere="mountain", f_ventilatory=f, f_renal=f)
     assert r["solver_converged"].dtype == bool and np.array_equal(r["solver_converged"], ref["solver_converged"])
     np.testing.assert_allclose(r["sao2_pct"], ref["sao2_pct"], atol=0.01, rtol=0)
