@@ -61,9 +61,9 @@ def coefficients() -> dict:
     """The table of ``altox/data/individual.yaml``, loaded once."""
     from importlib.resources import files
 
-    import yaml
+    from .yamlload import load_data_text
 
-    return yaml.safe_load(files("altox").joinpath("data/individual.yaml").read_text(encoding="utf-8"))
+    return load_data_text(files("altox").joinpath("data/individual.yaml").read_text(encoding="utf-8"))
 
 
 def _value(section: str, key: str) -> float:

@@ -76,9 +76,9 @@ def load_data(name: str) -> dict:
     ``'activity_ventilation'``), parsed once."""
     from importlib.resources import files
 
-    import yaml
+    from .yamlload import load_data_text
 
-    return yaml.safe_load(files("altox").joinpath(f"data/{name}.yaml").read_text(encoding="utf-8"))
+    return load_data_text(files("altox").joinpath(f"data/{name}.yaml").read_text(encoding="utf-8"))
 
 
 def _lookup(table: dict, key: str, what: str, field: str) -> dict:

@@ -30,6 +30,7 @@ import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from ..errors import AltoxError, ProfileError
+from ..yamlload import FAST_SAFE_LOADER
 from ..units import H_PER_DAY, parse_quantity
 
 Basis = Literal["read", "from memory", "common practice", "local"]  # the last two for users' own files
@@ -356,8 +357,8 @@ def _field_name(loc) -> str:
 
 def _parse(text: str, path: str) -> RuleSet:
     try:
-        root = yaml.compose(text, Loader=yaml.SafeLoader)
-        data = yaml.safe_load(text)
+        root = yaml.compose(text, Loader=FAST_SAFE_LOADER)
+        data = yaml.load(text, Loader=FAST_SAFE_LOADER)
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         line = mark.line + 1 if mark else None
