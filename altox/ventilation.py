@@ -41,6 +41,8 @@ from . import blood
 from .gas_exchange import AIR_FIO2, alveolar_gas_factor, alveolar_po2, inspired_po2
 from .atmosphere import SEA_LEVEL_MMHG
 
+_LN10 = float(np.log(10.0))
+
 
 @dataclass(frozen=True)
 class VentilationParameters:
@@ -99,17 +101,6 @@ def _phi(po2, p: VentilationParameters):
     return 1.0 / (w * (np.maximum(z, 0.0) + np.log1p(np.exp(-np.abs(z)))))
 
 
-def _phi_and_slope(po2, p: VentilationParameters):
-    """phi(P) and dphi/dP: phi = 1/S, S = w softplus(z), dS/dP = sigmoid(z)."""
-    w = p.hypoxic_smoothing_mmhg
-    z = (po2 - p.hypoxic_asymptote_mmhg) / w
-    e = np.exp(-np.abs(z))
-    big_s = w * (np.maximum(z, 0.0) + np.log1p(e))
-    sigmoid = np.where(z >= 0.0, 1.0 / (1.0 + e), e / (1.0 + e))
-    phi = 1.0 / big_s
-    return phi, -sigmoid * phi * phi
-
-
 @lru_cache(maxsize=1)
 def _sea_level_phi() -> float:
     p = default_parameters()
@@ -119,45 +110,103 @@ def _sea_level_phi() -> float:
 
 def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hypoxic_gain_scale,
                 drive_scale, hco3_offset_mmol_l, params):
-    """Broadcast the inputs and return them with the residual-and-state function of ``u = ln x``."""
+    """The inputs (PIO2 broadcast to the common shape, the others as given) and the residual-and-state
+    function of ``u = ln x``.
+
+    Everything that does not depend on ``u`` is folded into coefficients once: with
+    ``z = (PAO2 - sensor AaDO2 - asymptote) / w = z0 - PACO2 factor / w`` and ``S = softplus(z)``
+    the hypoxic drive is ``a0 + a1 / S``, and with ``r = ln(HCO3 / PCO2)`` the central drive is
+    ``b0 - b1 r`` (``pH = pK' - log10(0.0307) + r / ln 10``).
+    """
     p = params or default_parameters()
-    pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = np.broadcast_arrays(
-        *(np.asarray(a, dtype=float) for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
-                                               hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l)))
-    factor = alveolar_gas_factor(fio2_a, rq_a)
+    arrays = [np.asarray(a, dtype=float) for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
+                                                   hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l)]
+    pio2 = np.broadcast_to(arrays[0], np.broadcast_shapes(*(a.shape for a in arrays)))
+    _, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = arrays
+    w = p.hypoxic_smoothing_mmhg
+    fw = alveolar_gas_factor(fio2_a, rq_a) / w
+    z0 = (pio2 - (p.sensor_aado2_mmhg + p.hypoxic_asymptote_mmhg)) / w
     gain = gscale * p.hypoxic_gain_acute_mmhg * (1.0 + (p.acclimatized_gain_multiplier - 1.0) * fv)
-    phi_sl = _sea_level_phi()
+    a0 = 1.0 - gain * _sea_level_phi()
+    a1 = gain / w
     k_low, k_high = blood.secondary_response_slopes(fr)
     hco3_n = blood.NORMAL_HCO3_MMOL_L + off
     base = p.baseline_paco2_mmhg * met
-    log_sol = np.log10(blood.CO2_SOLUBILITY_MMOL_L_MMHG)
+    ph0 = blood.PK_CARBONIC - np.log10(blood.CO2_SOLUBILITY_MMOL_L_MMHG)
+    b0 = 1.0 - p.central_ph_gain * (ph0 - 7.40)
+    b1 = p.central_ph_gain / _LN10
 
-    def state(u, derivative=False, outputs_only=False):
-        x = np.exp(u)
-        paco2 = base / x
-        k = np.where(paco2 < 40.0, k_low, k_high)
-        hco3_raw = hco3_n - k * (40.0 - paco2)
-        hco3 = np.maximum(hco3_raw, 1.0)
-        ph = blood.PK_CARBONIC + np.log10(hco3) - log_sol - np.log10(paco2)
-        if outputs_only:
-            return paco2, hco3, ph
-        pao2 = pio2 - paco2 * factor
-        central = np.maximum(0.0, 1.0 - p.central_ph_gain * (ph - 7.40))
-        if not derivative:
-            hypoxic = np.maximum(1.0 + gain * (_phi(pao2 - p.sensor_aado2_mmhg, p) - phi_sl), 0.5)
-            return u - np.log(np.maximum(dscale * central * hypoxic, 1e-12)), paco2, hco3, ph
-        phi, dphi = _phi_and_slope(pao2 - p.sensor_aado2_mmhg, p)
-        hyp_raw = 1.0 + gain * (phi - phi_sl)
+    def state(u, derivative=False, exact=True):
+        """``g`` and the state at ``u``; with ``derivative`` also ``dg/du``.
+
+        ``exact=False`` gives the derivative of the unclamped expressions, cheaper: for the
+        whole-array Newton steps, whose results are checked on the exact residual."""
+        shape = np.broadcast_shapes(np.shape(u), pio2.shape)
+        if not shape:   # the in-place arithmetic below needs arrays, not numpy scalars
+            return tuple(a.reshape(()) for a in state(np.reshape(u, 1), derivative, exact))
+        paco2 = np.empty(shape)
+        np.negative(u, out=paco2)
+        np.exp(paco2, out=paco2)
+        paco2 *= base
+        d = paco2 - 40.0
+        hco3_raw = np.minimum(d, 0.0)
+        hco3_raw *= k_low
+        hco3 = np.maximum(d, 0.0)
+        hco3 *= k_high
+        hco3_raw += hco3
+        hco3_raw += hco3_n
+        np.maximum(hco3_raw, 1.0, out=hco3)
+        r = np.divide(hco3, paco2)
+        np.log(r, out=r)
+        central = r * -b1
+        central += b0
+        np.maximum(central, 0.0, out=central)
+        z = paco2 * -fw
+        z += z0
+        soft = np.abs(z)
+        np.negative(soft, out=soft)
+        np.exp(soft, out=soft)
+        np.log1p(soft, out=soft)
+        np.maximum(z, 0.0, out=z)
+        soft += z
+        hyp_raw = np.divide(a1, soft, out=z)
+        hyp_raw += a0
         hypoxic = np.maximum(hyp_raw, 0.5)
-        drive = dscale * central * hypoxic
-        g = u - np.log(np.maximum(drive, 1e-12))
-        dhco3 = np.where(hco3_raw > 1.0, -k * paco2, 0.0)
-        dph = (dhco3 / hco3 + 1.0) / np.log(10.0)
-        dcentral = np.where(central > 0.0, -p.central_ph_gain * dph, 0.0)
-        dhyp = np.where(hyp_raw > 0.5, gain * dphi * factor * paco2, 0.0)
+        drive = central * hypoxic
+        drive *= dscale
+        g = np.maximum(drive, 1e-12)
+        np.log(g, out=g)
+        np.subtract(u, g, out=g)
+        if not derivative:
+            r /= _LN10
+            r += ph0
+            return g, paco2, hco3, r
+        k = (d < 0.0) * (k_low - k_high)        # the secondary-response slope in use at this PCO2
+        k += k_high
+        dr = k * paco2                           # dr/du = 1 - k PCO2 / HCO3
+        if exact:
+            dr *= hco3_raw > 1.0
+        dr /= hco3
+        np.subtract(1.0, dr, out=dr)
+        dr *= b1                                 # -d(ln central)/du, times central
+        sig = np.expm1(-soft)                    # -sigmoid(z) = -dS/dz
+        sig *= fw * a1
+        sig *= paco2
+        soft *= soft
+        soft *= hypoxic
+        sig /= soft                              # d(ln hypoxic)/du
         with np.errstate(divide="ignore", invalid="ignore"):
-            dg = np.where(drive > 1e-12, 1.0 - dcentral / central - dhyp / hypoxic, 1.0)
-        return g, dg, paco2, hco3, ph
+            if exact:
+                dg = np.where(drive > 1e-12, 1.0 + np.where(central > 0.0, dr / central, 0.0)
+                              - np.where(hyp_raw > 0.5, sig, 0.0), 1.0)
+            else:
+                dr /= central
+                dg = dr
+                dg += 1.0
+                dg -= sig
+        r /= _LN10
+        r += ph0
+        return g, dg, paco2, hco3, r
 
     return pio2, state, (pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off)
 
@@ -208,40 +257,52 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
     -----
     ``g(u) = u - ln(s c h)`` is increasing in ``u = ln x`` (more ventilation lowers PCO2 and
     raises PO2, both lowering the drive), so the root is unique in ``x`` from 0.3 to 40.
-    The fast path starts from a bilinear guess in a small table of solved points (PIO2 x
-    acclimatization, cached per set of scalar inputs) and takes at most six Newton steps
-    with the analytic derivative on the whole array; any element not within
-    ``|g| < tolerance`` then is solved by the robust path, the Illinois variant of regula
-    falsi on the bracket after four halvings.  Roots pinned to the bracket's ends, or not
-    settled after ``max_iterations``, are reported as not converged.
+    The fast path starts from a trilinear guess in a table of solved points (PIO2 x
+    ventilatory x renal acclimatization, cached per set of scalar inputs), takes two Newton
+    steps with the analytic derivative on the whole array and evaluates the exact residual
+    at the result; any element not within ``|g| <= tolerance`` there continues with Newton
+    steps on its own, then by the robust path, the Illinois variant of regula falsi on the
+    bracket after four halvings.  Roots pinned to the bracket's ends, or not settled after
+    ``max_iterations``, are reported as not converged.  So are roots on the cliff of the
+    residual where the central drive is cut off (PIO2 below about 30 mmHg): where one unit in
+    the last place of ``u`` moves ``g`` by more than ten times the tolerance, the drive is a
+    product of a vanishing central and an unbounded hypoxic term and no steady state exists.
     """
-    shape = np.broadcast(*(np.asarray(a) for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
-                                                     hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l))).shape
-    flat = [np.broadcast_to(np.asarray(a, dtype=float), shape).ravel()
-            for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
-                      hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l)]
+    inputs = [np.asarray(a, dtype=float) for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
+                                                   hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l)]
+    shape = np.broadcast_shapes(*(a.shape for a in inputs))
+    # PIO2 and every array input flat at the full size; scalars stay scalars
+    flat = [np.broadcast_to(a, shape).ravel() if (a.ndim or i == 0) else a for i, a in enumerate(inputs)]
     pio2, state, args = _make_state(*flat, params)
     lo, hi = np.log(0.3), np.log(40.0)
     u = _initial_guess(args, params)
     converged = np.ones(pio2.shape, dtype=bool)
-    # Two Newton steps on the whole array from the tabulated guess. Convergence is quadratic, so a
-    # second step below 1e-6 (from a residual below 1e-6) leaves an error of order its square
-    # (< 1e-11): those points are done without a third evaluation.
-    for used in (1, 2):
-        g, dg = state(u, derivative=True)[:2]
-        ok = np.isfinite(g) & (dg > 0.0)
-        step = np.where(ok, g / np.where(ok, dg, 1.0), 0.0)
-        u = np.clip(u - step, lo, hi)
-    # a small residual too: a tiny step on a cliff of the residual (the central drive's cut-off) is no root
-    todo = ~(ok & (np.abs(step) < 1e-6) & (np.abs(g) < 1e-6)) | (u <= lo + 1e-9) | (u >= hi - 1e-9)
-    paco2, hco3, ph = state(u, outputs_only=True)
+    # Whole-array Newton steps from the tabulated guess, then the exact residual at the result:
+    # an element is done only where that residual is within the tolerance.
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for used in range(1, FAST_NEWTON_STEPS + 1):
+            g, dg = state(u, derivative=True, exact=False)[:2]
+            g /= dg
+            u -= g
+            np.clip(u, lo, hi, out=u)
+    g, paco2, hco3, ph = state(u)
+    todo = ~(np.abs(g) <= tolerance)
+    if not (u.min(initial=hi) > lo + 1e-9 and u.max(initial=lo) < hi - 1e-9):
+        todo |= (u <= lo + 1e-9) | (u >= hi - 1e-9)
+    # near the central drive's cut-off (below about 30 mmHg of PIO2) the residual becomes a cliff:
+    # those roots are checked on their own below, for whether double precision can resolve them
+    ph_cliff = 7.40 + (1.0 - CLIFF_CENTRAL_DRIVE) / (params or default_parameters()).central_ph_gain
+    cliff = ph > ph_cliff if ph.max(initial=0.0) > ph_cliff else None
+    if cliff is not None:
+        todo |= cliff
     if todo.any():
         # ... the few left (near the kinks of the controller) continue on their own, then the
         # bracketed solver takes any Newton did not settle
         idx = np.flatnonzero(todo)
-        sub_args = [np.asarray(a)[idx] for a in args]
+        sub_args = [a[idx] if a.ndim else a for a in args]
         sub_pio2, sub_state, _ = _make_state(*sub_args, params)
         us = u[idx]
+        us[~np.isfinite(us)] = 0.5 * (lo + hi)
         for _ in range(NEWTON_STEPS):
             gs, dgs, *_ = sub_state(us, derivative=True)
             left = ~(np.abs(gs) <= tolerance)
@@ -253,21 +314,27 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
         used += NEWTON_STEPS
         if left.any():
             inner = np.flatnonzero(left)
-            b_pio2, b_state, _ = _make_state(*[a[inner] for a in sub_args], params)
+            b_pio2, b_state, _ = _make_state(*[a[inner] if a.ndim else a for a in sub_args], params)
             u_b, conv_b, more = _solve_bracketed(b_pio2, b_state, max_iterations, tolerance)
             us[inner] = u_b
             converged[idx[inner]] = conv_b
             used += more
-        u = u.copy()
         u[idx] = us
-        _, sub_paco2, sub_hco3, sub_ph = sub_state(us)
-        paco2, hco3, ph = paco2.copy(), hco3.copy(), ph.copy()
-        paco2[idx], hco3[idx], ph[idx] = sub_paco2, sub_hco3, sub_ph
+        _, dgs, paco2[idx], hco3[idx], ph[idx] = sub_state(us, derivative=True)
+        if cliff is not None:
+            # a root is only a root if the residual can tell it apart from the neighbouring numbers:
+            # where one unit in the last place of u moves g by more than the bracketed solver's
+            # acceptance (10 x tolerance) the drive product is 0 x infinity, no steady state
+            unresolved = cliff[idx] & ~(np.abs(dgs) * np.spacing(np.abs(us)) <= 10.0 * tolerance)
+            converged[idx[unresolved]] = False
     return {"paco2_mmhg": paco2.reshape(shape), "ventilation_ratio": np.exp(u).reshape(shape),
             "hco3_mmol_l": hco3.reshape(shape), "ph": ph.reshape(shape),
             "converged": converged.reshape(shape), "iterations": used}
 
 
+FAST_NEWTON_STEPS = 2
+# central drive (1 at pH 7.40) below which a root is checked for being resolvable (see equilibrium)
+CLIFF_CENTRAL_DRIVE = 1e-3
 NEWTON_STEPS = 6
 _GUESS_PIO2 = np.linspace(15.0, 215.0, 201)   # 1 mmHg steps
 _GUESS_F = np.linspace(0.0, 1.0, 6)           # ventilatory and renal acclimatization, 0.2 steps
@@ -288,29 +355,50 @@ def _guess_table(fio2, rq, met, gscale, dscale, off):
 
 def _axis_position(values, grid):
     """Index of the cell and the weight within it, for a uniform grid (clamped to its ends)."""
-    step = grid[1] - grid[0]
-    pos = np.clip((values - grid[0]) / step, 0.0, grid.size - 1.000001)
+    pos = np.subtract(values, grid[0], out=np.empty(np.shape(values)))
+    pos *= 1.0 / (grid[1] - grid[0])
+    np.clip(pos, 0.0, grid.size - 1.000001, out=pos)
     i = pos.astype(np.intp)
-    return i, pos - i
+    pos -= i
+    return i, pos
+
+
+def _key_value(a, step):
+    """Stand-in of one input for the guess table: a scalar as given, an array's mean rounded to ``step``."""
+    if a.ndim == 0:
+        return round(float(a), 9)
+    return round(round(float(np.mean(a)) / step) * step, 6)
 
 
 def _initial_guess(args, params):
-    """Trilinear interpolation in the guess table; scalar stand-ins (means) for the other inputs."""
+    """Trilinear interpolation in the guess table; scalar stand-ins for the other inputs."""
     pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = args
-    key = tuple(round(round(float(np.mean(a)) / step) * step, 6)
-                for a, step in zip((fio2_a, rq_a, met, gscale, dscale, off), _GUESS_KEY_STEPS))
+    key = tuple(_key_value(a, step) for a, step in zip((fio2_a, rq_a, met, gscale, dscale, off), _GUESS_KEY_STEPS))
     table = _guess_table(*key) if params is None else _guess_table.__wrapped__(*key)
     i, wi = _axis_position(pio2, _GUESS_PIO2)
-    j, wj = _axis_position(fv, _GUESS_F)
-    k, wk = _axis_position(fr, _GUESS_F)
+    j, wj = _axis_position(np.asarray(fv, dtype=float), _GUESS_F)
+    k, wk = _axis_position(np.asarray(fr, dtype=float), _GUESS_F)
     nf = _GUESS_F.size
-    base = (i * nf + j) * nf + k
-    out = np.zeros_like(wi)
-    for di, w1 in ((0, 1.0 - wi), (1, wi)):
-        for dj, w2 in ((0, 1.0 - wj), (1, wj)):
-            w12 = w1 * w2
-            flat = base + (di * nf + dj) * nf
-            out += w12 * ((1.0 - wk) * table[flat] + wk * table[flat + 1])
+    cell = i * (nf * nf)
+    cell += j * nf + k
+    # lerp along f_renal at the four (PIO2, f_ventilatory) corners, then along f_ventilatory, then PIO2;
+    # the table's views shifted by a corner's offset take the corner values without index arithmetic
+    edges = []
+    for offset in (0, nf, nf * nf, nf * nf + nf):
+        v0 = table[offset:].take(cell)
+        v1 = table[offset + 1:].take(cell)
+        v1 -= v0
+        v1 *= wk
+        v1 += v0
+        edges.append(v1)
+    for a, b in ((0, 1), (2, 3)):
+        edges[b] -= edges[a]
+        edges[b] *= wj
+        edges[a] += edges[b]
+    out = edges[2]
+    out -= edges[0]
+    out *= wi
+    out += edges[0]
     return out
 
 

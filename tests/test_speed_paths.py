@@ -1,0 +1,75 @@
+"""The fast paths of the chain against their reference paths, on the same inputs.
+
+Each test names the fast path and the reference it is held to; timing is never asserted here
+(see benchmarks/run.py).
+"""
+
+import numpy as np
+import pytest
+
+from altox import ventilation as v
+
+
+def _bracketed_reference(pio2, fio2, fv, fr, **kw):
+    """The robust path alone (Illinois regula falsi on the whole bracket) on the same residual."""
+    pio2_a, state, _ = v._make_state(pio2, fio2, 0.8, fv, fr, kw.get("metabolic_ratio", 1.0),
+                                     kw.get("hypoxic_gain_scale", 1.0), kw.get("drive_scale", 1.0),
+                                     kw.get("hco3_offset_mmol_l", 0.0), None)
+    u, conv, _ = v._solve_bracketed(np.broadcast_to(pio2_a, np.shape(pio2_a)), state, 200, 1e-12)
+    return np.exp(u), conv
+
+
+@pytest.mark.parametrize("case", ["independent-fractions", "days-linked", "array-fio2-and-gain"])
+def test_equilibrium_fast_path_matches_bracketed_solve(case):
+    # fast path (tabulated guess, whole-array Newton, exact residual check) vs the bracketed solver
+    rng = np.random.default_rng(11)
+    n = 4000
+    pio2 = rng.uniform(35.0, 215.0, n)
+    kw = {}
+    fio2 = 0.2095
+    if case == "days-linked":
+        fv, fr = v.acclimatization_fractions(rng.uniform(0.0, 30.0, n))
+    else:
+        fv, fr = rng.uniform(0.0, 1.0, n), rng.uniform(0.0, 1.0, n)
+    if case == "array-fio2-and-gain":
+        fio2 = rng.uniform(0.15, 1.0, n)
+        pio2 = fio2 * rng.uniform(200.0, 713.0, n)
+        kw = {"hypoxic_gain_scale": rng.uniform(0.5, 2.0, n), "drive_scale": rng.uniform(0.7, 1.0, n)}
+    fast = v.equilibrium(pio2, fio2, 0.8, fv, fr, **kw)
+    x_ref, conv_ref = _bracketed_reference(pio2, fio2, fv, fr, **kw)
+    assert conv_ref.all() and fast["converged"].all()
+    np.testing.assert_allclose(fast["ventilation_ratio"], x_ref, rtol=1e-9)
+    # every element the fast path returns satisfies the stated tolerance on the exact residual
+    g = v.equilibrium_residual(fast["ventilation_ratio"], pio2, fio2, 0.8, fv, fr, **kw)
+    assert np.all(np.abs(g) <= 1e-11)
+
+
+def test_equilibrium_guess_table_equals_full_solve_at_its_nodes():
+    # the response surface (guess table) against the bracketed solve of the same points
+    table = v._guess_table(0.2095, 0.8, 1.0, 1.0, 1.0, 0.0)
+    p, fv, fr = np.meshgrid(v._GUESS_PIO2[::10], v._GUESS_F, v._GUESS_F, indexing="ij")
+    x_ref, _ = _bracketed_reference(p.ravel(), 0.2095, fv.ravel(), fr.ravel())
+    nf = v._GUESS_F.size
+    stored = table.reshape(v._GUESS_PIO2.size, nf, nf)[::10].ravel()
+    np.testing.assert_allclose(np.exp(stored), x_ref, rtol=1e-9)
+
+
+def test_equilibrium_scalar_and_chunk_agree():
+    # one element solved alone (0-d path) against the same element inside a whole array
+    rng = np.random.default_rng(3)
+    pio2 = rng.uniform(40.0, 150.0, 50)
+    fv, fr = rng.uniform(0.0, 1.0, 50), rng.uniform(0.0, 1.0, 50)
+    whole = v.equilibrium(pio2, f_ventilatory=fv, f_renal=fr)
+    for i in range(0, 50, 7):
+        one = v.equilibrium(pio2[i], f_ventilatory=fv[i], f_renal=fr[i])
+        assert one["paco2_mmhg"].shape == ()
+        assert float(one["paco2_mmhg"]) == pytest.approx(whole["paco2_mmhg"][i], rel=1e-10)
+
+
+def test_no_steady_state_below_the_cliff_is_flagged_and_above_converges():
+    # the resolvability rule on the central drive's cut-off: acute, FiO2 0.12 and air, PIO2 15-45
+    pio2 = np.linspace(15.0, 45.0, 301)
+    for fio2 in (0.12, 0.2095):
+        r = v.equilibrium(pio2, fio2, 0.8, 0.0, 0.0)
+        assert r["converged"][pio2 >= 32.0].all()
+        assert not r["converged"][pio2 <= 24.0].any()
