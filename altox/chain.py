@@ -142,7 +142,9 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
             alt = np.asarray(altitude_for_pressure(np.clip(pb, lo_p, hi_p), atmosphere))
         else:
             alt = np.asarray(altitude_m, dtype=float)
-            barometric_pressure(alt, atmosphere)  # range check only
+            lo_m, hi_m = _model_range(atmosphere)
+            if not (alt.min(initial=lo_m) >= lo_m and alt.max(initial=hi_m) <= hi_m):  # NaN fails too
+                barometric_pressure(alt, atmosphere)  # raises the model's range error
         atm_label = "measured"
     else:
         alt = np.asarray(altitude_m, dtype=float)
@@ -191,8 +193,7 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
     clamped = pao2_raw < 0.0
     pao2 = np.maximum(pao2_raw, 0.0)
     qs = gas_exchange.shunt_fraction_for_age(age_y) if shunt_fraction is None else shunt_fraction
-    pao2_art = np.asarray(gas_exchange.arterial_po2(pao2, hb, qs, ph_a, paco2, body_temp_c, p50_mmhg=p50_mmhg))
-    sao2 = np.asarray(blood.saturation(pao2_art, ph_a, paco2, body_temp_c, p50_mmhg))
+    pao2_art, sao2 = gas_exchange.arterial_blood(pao2, hb, qs, ph_a, paco2, body_temp_c, p50_mmhg=p50_mmhg)
     content = np.asarray(blood.oxygen_content(hb, sao2, pao2_art))
 
     # equivalent altitude: ambient air with the same PIO2, in the same atmosphere (ISA when measured)

@@ -172,11 +172,66 @@ def sea_level_aado2(age_y):
     return _out(2.5 + 0.21 * np.asarray(age_y, dtype=float), age_y)
 
 
-def _po2_for_content(content_ml_dl, hb_g_dl, factor, upper_mmhg):
-    """PO2 whose total content (bound + dissolved) equals ``content``; safeguarded Newton.
+def _content_residual(p, content_ml_dl, cap, factor):
+    """Total O2 content at PO2 ``p`` minus ``content``, with the saturation, virtual PO2 and
+    ``v^3 + 150 v`` there (Severinghaus curve)."""
+    v = p * factor
+    cube = v * v
+    cube += 150.0
+    cube *= v
+    s = cube / (cube + 23400.0)
+    f = cap * s
+    f += blood.O2_SOLUBILITY_ML_DL_MMHG * p
+    f -= content_ml_dl
+    return f, s, v, cube
 
-    ``factor`` is the virtual-PO2 factor of the blood (:func:`altox.blood.virtual_po2` of 1 mmHg).
+
+def _po2_for_content(content_ml_dl, hb_g_dl, factor, upper_mmhg):
+    """PO2 whose total content (bound + dissolved) equals ``content``, and the saturation there.
+
+    Newton from the PO2 that ignores the change in dissolved O2 (the standard curve inverted
+    in closed form).  The result is accepted only where the residual at the returned PO2 is
+    below 1e-9 mL/dL (PO2 to ~1e-8 mmHg) and the PO2 is not negative; any other element (a
+    content at or below zero, say) takes the bracketed Newton of
+    :func:`_po2_for_content_safeguarded`.  ``factor`` is the virtual-PO2 factor of the blood
+    (:func:`altox.blood.virtual_po2` of 1 mmHg).
     """
+    shape = np.shape(content_ml_dl)
+    if not shape:
+        p, s = _po2_for_content(np.reshape(content_ml_dl, 1), hb_g_dl, factor, np.reshape(upper_mmhg, 1))
+        return p.reshape(()), s.reshape(())
+    cap = blood.HUEFNER_ML_PER_G * np.asarray(hb_g_dl, dtype=float)
+    upper = np.maximum(np.asarray(upper_mmhg, dtype=float), 1e-6)
+    s0 = np.clip((content_ml_dl - blood.O2_SOLUBILITY_ML_DL_MMHG * upper) / cap, 1e-6, 1 - 1e-9)
+    p = np.asarray(blood.standard_po2_for_saturation(s0)) / factor
+    with np.errstate(all="ignore"):
+        for _ in range(6):  # three steps from this start over the physiological range
+            f, s, v, cube = _content_residual(p, content_ml_dl, cap, factor)
+            if np.abs(f).max(initial=0.0) < 1e-9 and p.min(initial=0.0) >= 0.0:
+                return p, s
+            # dF/dP = cap factor dS/dv + solubility, dS/dv = 23400 (3 v^2 + 150) / (v^3 + 150 v + 23400)^2
+            v *= v
+            v *= 3.0
+            v += 150.0
+            cube += 23400.0
+            cube *= cube
+            v /= cube
+            v *= 23400.0 * cap * factor
+            v += blood.O2_SOLUBILITY_ML_DL_MMHG
+            f /= v
+            p = p - f
+        f, s, _, _ = _content_residual(p, content_ml_dl, cap, factor)
+        bad = np.flatnonzero(~((np.abs(f) < 1e-9) & (p >= 0.0)))
+    if bad.size:
+        def sub(a):
+            return np.broadcast_to(a, p.shape)[bad]
+        p[bad] = _po2_for_content_safeguarded(sub(content_ml_dl), sub(hb_g_dl), sub(factor), sub(upper))
+        s[bad] = blood.standard_saturation(p[bad] * sub(factor))
+    return p, s
+
+
+def _po2_for_content_safeguarded(content_ml_dl, hb_g_dl, factor, upper_mmhg):
+    """:func:`_po2_for_content` with each Newton step kept inside a shrinking bracket [0, upper]."""
     cap = blood.HUEFNER_ML_PER_G * hb_g_dl
     lo = np.zeros_like(content_ml_dl)
     hi = np.maximum(np.asarray(upper_mmhg, dtype=float), 1e-6) + np.zeros_like(content_ml_dl)
@@ -199,11 +254,11 @@ def _po2_for_content(content_ml_dl, hb_g_dl, factor, upper_mmhg):
     return p
 
 
-def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmhg=40.0,
-                 temp_c=37.0, dlo2_ml_min_mmhg=REST_DLO2_ML_MIN_MMHG,
-                 cardiac_output_ml_min=REST_CARDIAC_OUTPUT_ML_MIN,
-                 av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL, p50_mmhg=None):
-    """Arterial PO2 from alveolar PO2: diffusion limitation, then venous admixture.
+def arterial_blood(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmhg=40.0,
+                   temp_c=37.0, dlo2_ml_min_mmhg=REST_DLO2_ML_MIN_MMHG,
+                   cardiac_output_ml_min=REST_CARDIAC_OUTPUT_ML_MIN,
+                   av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL, p50_mmhg=None):
+    """Arterial PO2 and O2 saturation from alveolar PO2: diffusion limitation, then venous admixture.
 
     Two mechanisms open the alveolar-arterial difference, and both are computed from the
     dissociation curve, so the difference narrows at altitude where the curve is steep
@@ -238,8 +293,9 @@ def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmh
 
     Returns
     -------
-    numeric
-        PaO2. [mmHg]
+    (pao2, sao2) : arrays
+        PaO2 [mmHg] and the saturation of that blood on the shifted curve (0-1), both
+        shaped like the broadcast inputs.
     """
     pa = np.asarray(pao2_mmhg, dtype=float)
     hb = np.asarray(hb_g_dl, dtype=float)
@@ -261,8 +317,24 @@ def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmh
     qs = np.asarray(shunt_fraction, dtype=float)
     c_art = c_end - qs * avd / (1.0 - qs)
     shape = np.broadcast(pa, hb, qs, factor).shape
-    pao2_art = _po2_for_content(np.broadcast_to(c_art, shape).astype(float), np.broadcast_to(hb, shape),
-                                np.broadcast_to(factor, shape), np.broadcast_to(p_end, shape))
+    return _po2_for_content(np.broadcast_to(c_art, shape).astype(float), hb, factor, np.broadcast_to(p_end, shape))
+
+
+def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmhg=40.0,
+                 temp_c=37.0, dlo2_ml_min_mmhg=REST_DLO2_ML_MIN_MMHG,
+                 cardiac_output_ml_min=REST_CARDIAC_OUTPUT_ML_MIN,
+                 av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL, p50_mmhg=None):
+    """Arterial PO2 from alveolar PO2: diffusion limitation, then venous admixture.
+
+    The PaO2 of :func:`arterial_blood`; see there for the method, parameters and references.
+
+    Returns
+    -------
+    numeric
+        PaO2. [mmHg]
+    """
+    pao2_art, _ = arterial_blood(pao2_mmhg, hb_g_dl, shunt_fraction, ph, pco2_mmhg, temp_c, dlo2_ml_min_mmhg,
+                                 cardiac_output_ml_min, av_difference_ml_dl, p50_mmhg)
     return _out(pao2_art, pao2_mmhg, hb_g_dl, shunt_fraction, ph, pco2_mmhg, temp_c)
 
 

@@ -73,3 +73,44 @@ def test_no_steady_state_below_the_cliff_is_flagged_and_above_converges():
         r = v.equilibrium(pio2, fio2, 0.8, 0.0, 0.0)
         assert r["converged"][pio2 >= 32.0].all()
         assert not r["converged"][pio2 <= 24.0].any()
+
+
+def test_content_inversion_fast_path_matches_safeguarded_newton():
+    # Newton without a bracket (checked at the result) vs the bracketed Newton, PO2 for a content
+    from altox import blood, gas_exchange as ge
+
+    rng = np.random.default_rng(5)
+    n = 5000
+    hb = rng.uniform(8.0, 20.0, n)
+    factor = rng.uniform(0.7, 2.0, n)
+    upper = rng.uniform(15.0, 600.0, n)
+    s_up = np.asarray(blood.standard_saturation(upper * factor))
+    c_up = blood.HUEFNER_ML_PER_G * hb * s_up + blood.O2_SOLUBILITY_ML_DL_MMHG * upper
+    content = c_up - rng.uniform(0.0, 1.5, n)
+    content[:20] = -0.1   # no PO2 has this content: both give the bracket's lower end
+    p_fast, s_fast = ge._po2_for_content(content, hb, factor, upper)
+    p_ref = ge._po2_for_content_safeguarded(content, hb, factor, upper)
+
+    def residual(p):
+        return blood.HUEFNER_ML_PER_G * hb * np.asarray(blood.standard_saturation(p * factor)) \
+            + blood.O2_SOLUBILITY_ML_DL_MMHG * p - content
+
+    assert np.all(np.abs(residual(p_fast)[20:]) < 1e-9)
+    # where the bracketed Newton met the same 1e-9 mL/dL, the two agree to what that allows
+    # (the content curve is never flatter than the dissolved O2's 0.003 mL/dL/mmHg)
+    both = np.abs(residual(p_ref)) < 1e-9
+    assert both[20:].mean() > 0.99
+    np.testing.assert_allclose(p_fast[both], p_ref[both], rtol=0, atol=2e-9 / blood.O2_SOLUBILITY_ML_DL_MMHG)
+    np.testing.assert_allclose(p_fast[:20], p_ref[:20], atol=1e-6)
+    np.testing.assert_allclose(s_fast, blood.standard_saturation(p_fast * factor), rtol=1e-12, atol=1e-15)
+
+
+def test_assess_range_check_still_raises_with_measured_pressure():
+    # the cheap min/max check of the altitude beside a measured pressure raises the model's own error
+    import altox
+    from altox.errors import OutOfRangeError
+
+    with pytest.raises(OutOfRangeError, match="mountain"):
+        altox.assess(np.array([1000.0, 9500.0]), pb_mmhg=500.0, atmosphere="mountain")
+    with pytest.raises(OutOfRangeError, match="outside"):
+        altox.assess(np.array([1000.0, np.nan]), pb_mmhg=500.0, atmosphere="mountain")
