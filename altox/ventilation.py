@@ -446,49 +446,7 @@ def _solve_bracketed(pio2, state, max_iterations, tolerance):
 
 def acclimatization_history(pio2_mmhg, duration_h, initial_pio2_mmhg=None,
                             params: VentilationParameters | None = None):
-    """Acclimatization fractions along a timeline, carrying time spent high and remembering descent.
+    """Acclimatization fractions along a timeline: see :func:`altox.acclimatization.acclimatization_history`."""
+    from .acclimatization import acclimatization_history as history
 
-    The hypoxic stimulus is the inspired-PO2 deficit below sea level, ``D = PIO2,sl - PIO2``.
-    For each of the two processes (ventilatory, renal) altox keeps the deficit a person is
-    acclimatized to, ``Dacc``, which moves toward the current deficit with first-order
-    kinetics, exactly integrated over each sample: up with the process's time constant, down
-    (after descent) with the slower de-acclimatization time constant.  The fraction at a sample
-    is ``min(1, Dacc / D)``: complete when the person is acclimatized to this altitude or higher,
-    partial after an ascent. At a constant altitude from sea level this is exactly
-    :func:`acclimatization_fractions`.
-
-    Parameters
-    ----------
-    pio2_mmhg : array, shape (..., n)
-        Inspired PO2 at each sample, time along the last axis. [mmHg]
-    duration_h : array, shape (n,)
-        Length of each sample. [h] The state at a sample is the state at its *end*.
-    initial_pio2_mmhg : numeric, optional
-        PIO2 the person is fully acclimatized to at the start (their home altitude); broadcasts
-        against ``pio2_mmhg[..., 0]``. Default: sea level.
-
-    Returns
-    -------
-    (f_ventilatory, f_renal) : arrays shaped like ``pio2_mmhg``
-    """
-    p = params or default_parameters()
-    pio2 = np.asarray(pio2_mmhg, dtype=float)
-    dt_days = np.asarray(duration_h, dtype=float) / 24.0
-    pio2_sl = float(inspired_po2(SEA_LEVEL_MMHG))
-    deficit = np.maximum(pio2_sl - pio2, 0.0)
-    start = np.zeros(pio2.shape[:-1]) if initial_pio2_mmhg is None else np.broadcast_to(
-        np.maximum(pio2_sl - np.asarray(initial_pio2_mmhg, dtype=float), 0.0), pio2.shape[:-1]).astype(float)
-    out = []
-    for tau_up in (p.ventilatory_time_constant_days, p.renal_time_constant_days):
-        acc = start.copy()
-        frac = np.empty_like(deficit)
-        decay_up = np.exp(-dt_days / tau_up)
-        decay_down = np.exp(-dt_days / p.deacclimatization_time_constant_days)
-        for i in range(deficit.shape[-1]):
-            d = deficit[..., i]
-            decay = np.where(d > acc, decay_up[i], decay_down[i])
-            acc = d + (acc - d) * decay
-            with np.errstate(divide="ignore", invalid="ignore"):
-                frac[..., i] = np.where(d > 1e-9, np.minimum(1.0, acc / np.where(d > 1e-9, d, 1.0)), 1.0)
-        out.append(frac)
-    return out[0], out[1]
+    return history(pio2_mmhg, duration_h, initial_pio2_mmhg, params)
