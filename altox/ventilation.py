@@ -314,8 +314,8 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
         used += NEWTON_STEPS
         if left.any():
             inner = np.flatnonzero(left)
-            b_pio2, b_state, _ = _make_state(*[a[inner] if a.ndim else a for a in sub_args], params)
-            u_b, conv_b, more = _solve_bracketed(b_pio2, b_state, max_iterations, tolerance)
+            b_pio2, b_state, b_args = _make_state(*[a[inner] if a.ndim else a for a in sub_args], params)
+            u_b, conv_b, more = _solve_bracketed(b_pio2, b_state, max_iterations, tolerance, b_args, params)
             us[inner] = u_b
             converged[idx[inner]] = conv_b
             used += more
@@ -347,9 +347,9 @@ _GUESS_KEY_STEPS = (0.05, 0.05, 0.1, 0.1, 0.05, 1.0)   # fio2, rq, metabolic, ga
 def _guess_table(fio2, rq, met, gscale, dscale, off):
     """ln x solved on a grid of PIO2 x f_ventilatory x f_renal, for the initial guess (flat array)."""
     pio2, fv, fr = np.meshgrid(_GUESS_PIO2, _GUESS_F, _GUESS_F, indexing="ij")
-    g_pio2, state, _ = _make_state(pio2.ravel(), fio2, rq, fv.ravel(), fr.ravel(), met, gscale, dscale, off,
-                                   None)
-    u, _, _ = _solve_bracketed(g_pio2, state, 80, 1e-12)
+    g_pio2, state, args = _make_state(pio2.ravel(), fio2, rq, fv.ravel(), fr.ravel(), met, gscale, dscale, off,
+                                      None)
+    u, _, _ = _solve_bracketed(g_pio2, state, 80, 1e-12, args)
     return u
 
 
@@ -402,43 +402,73 @@ def _initial_guess(args, params):
     return out
 
 
-def _solve_bracketed(pio2, state, max_iterations, tolerance):
-    """Illinois regula falsi on u = ln x in [ln 0.3, ln 40], after four halvings (robust path)."""
-    lo = np.full(pio2.shape, np.log(0.3))
-    hi = np.full(pio2.shape, np.log(40.0))
-    g_lo = state(lo)[0]
-    g_hi = state(hi)[0]
+def _solve_bracketed(pio2, state, max_iterations, tolerance, args=None, params=None):
+    """Illinois regula falsi on u = ln x in [ln 0.3, ln 40], after four halvings (robust path).
+
+    With ``args`` (the flat inputs :func:`_make_state` was built from) each iteration evaluates
+    only the elements still active, on a residual rebuilt for them whenever the active set has
+    halved; the arithmetic per element is the same either way.
+    """
+    lo_u, hi_u = np.log(0.3), np.log(40.0)
+    size = pio2.shape
+    g_lo = state(np.full(size, lo_u))[0]
+    g_hi = state(np.full(size, hi_u))[0]
     pinned_low = g_lo >= 0.0
     pinned_high = g_hi <= 0.0
-    side = np.zeros(pio2.shape, dtype=np.int8)
-    u = np.where(pinned_low, lo, np.where(pinned_high, hi, 0.5 * (lo + hi)))
-    active = ~(pinned_low | pinned_high)
+    u = np.where(pinned_low, lo_u, np.where(pinned_high, hi_u, 0.5 * (lo_u + hi_u)))
+    act = np.flatnonzero(~(pinned_low | pinned_high))           # flat indices still being solved
+    lo, hi = np.full(act.size, lo_u), np.full(act.size, hi_u)
+    g_lo, g_hi = g_lo.ravel()[act], g_hi.ravel()[act]
+    side = np.zeros(act.size, dtype=np.int8)
+    # the residual over a superset of the active elements: `where` maps the active ones into it
+    cur_state, cur_size, where = state, u.size, act
+
+    def residual(values):
+        if cur_state is state:
+            full = u.ravel().copy()
+            full[act] = values
+            return cur_state(full.reshape(size))[0].ravel()[act]
+        full = np.zeros(cur_size)
+        full[where] = values
+        return cur_state(full)[0][where]
+
     for _ in range(4):  # a few halvings first: the ends of the bracket are far from linear
         mid = 0.5 * (lo + hi)
-        g = state(mid)[0]
-        pos = active & (g > 0.0)
-        neg = active & (g <= 0.0)
+        g = residual(mid)
+        pos = g > 0.0
         hi, g_hi = np.where(pos, mid, hi), np.where(pos, g, g_hi)
-        lo, g_lo = np.where(neg, mid, lo), np.where(neg, g, g_lo)
+        lo, g_lo = np.where(pos, lo, mid), np.where(pos, g_lo, g)
+    cur = 0.5 * (lo + hi)
     used = 4
+    flat_u = u.ravel().copy()
     for used in range(5, max_iterations + 1):
+        if act.size == 0:
+            break
         denom = g_hi - g_lo
-        u_new = np.where(active, (lo * g_hi - hi * g_lo) / np.where(denom != 0.0, denom, 1.0), u)
-        u_new = np.where(active & ~((u_new > lo) & (u_new < hi)), 0.5 * (lo + hi), u_new)
-        g = state(u_new)[0]
-        u = u_new
-        pos = active & (g > 0.0)
-        neg = active & (g <= 0.0)
-        hi = np.where(pos, u, hi)
+        new = (lo * g_hi - hi * g_lo) / np.where(denom != 0.0, denom, 1.0)
+        new = np.where((new > lo) & (new < hi), new, 0.5 * (lo + hi))
+        g = residual(new)
+        cur = new
+        pos = g > 0.0
+        neg = ~pos
+        hi = np.where(pos, cur, hi)
         g_lo = np.where(pos & (side == 1), 0.5 * g_lo, g_lo)
         g_hi = np.where(pos, g, g_hi)
-        lo = np.where(neg, u, lo)
+        lo = np.where(neg, cur, lo)
         g_hi = np.where(neg & (side == -1), 0.5 * g_hi, g_hi)
         g_lo = np.where(neg, g, g_lo)
-        side = np.where(pos, 1, np.where(neg, -1, side)).astype(np.int8)
-        active = active & (np.abs(g) > tolerance)
-        if not active.any():
-            break
+        side = np.where(pos, 1, -1).astype(np.int8)
+        done = np.abs(g) <= tolerance
+        if done.any():
+            flat_u[act[done]] = cur[done]
+            keep = ~done
+            act, lo, hi, g_lo, g_hi, cur, side = (x[keep] for x in (act, lo, hi, g_lo, g_hi, cur, side))
+            where = where[keep]
+            if args is not None and act.size and act.size * 2 <= cur_size:
+                cur_state = _make_state(*[a.ravel()[act] if a.ndim else a for a in args], params)[1]
+                cur_size, where = act.size, np.arange(act.size)
+    flat_u[act] = cur
+    u = flat_u.reshape(size)
     g = state(u)[0]
     converged = (np.abs(g) <= tolerance * 10.0) & ~pinned_low & ~pinned_high
     return u, converged, used
