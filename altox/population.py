@@ -251,14 +251,18 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     total = n_knots + n_samples
     sao2_k = np.empty((n_people, n, n_knots))
     step = max(1, int(max_chunk_elements // max(1, n_people * n)))
+    # awake knots first, then asleep: each chunk then has one chemoreflex drive (and the solver one
+    # tabulated first guess for it)
+    order = np.argsort(tl.sleeping[k_index], kind="stable")
     for a in range(0, n_knots, step):
         b = min(n_knots, a + step)
-        ks = k_index[a:b]
+        pos = order[a:b]
+        ks = k_index[pos]
         r = assess(np.broadcast_to(alt[ks], (n_people, n, b - a)),
                    pb_mmhg=np.broadcast_to(pb[ks], (n_people, n, b - a)), atmosphere=atmosphere,
                    f_ventilatory=f_v[:, None, ks], f_renal=f_r[:, None, ks], drive_scale=drive[None, None, ks],
                    **member_kw)
-        sao2_k[:, :, a:b] = r["sao2_pct"]
+        sao2_k[:, :, pos] = r["sao2_pct"]
         if progress is not None:
             progress(b, total)
     out = np.empty((len(p), n_people, n_samples))

@@ -340,7 +340,7 @@ _GUESS_PIO2 = np.linspace(15.0, 215.0, 201)   # 1 mmHg steps
 _GUESS_F = np.linspace(0.0, 1.0, 6)           # ventilatory and renal acclimatization, 0.2 steps
 # the guess table is built for scalar stand-ins of the other inputs, rounded to these steps so that
 # nearby values share one table (the guess only needs to be close; Newton does the rest)
-_GUESS_KEY_STEPS = (0.05, 0.05, 0.1, 0.1, 0.05, 1.0)   # fio2, rq, metabolic, gain, drive, HCO3 offset
+_GUESS_KEY_STEPS = (0.05, 0.05, 0.1, 0.5, 0.1, 4.0)   # fio2, rq, metabolic, gain, drive, HCO3 offset
 
 
 @lru_cache(maxsize=32)
