@@ -105,20 +105,42 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
                   hypoxic_gain_scale=hypoxic_gain_scale, drive_scale=drive_scale,
                   hco3_offset_mmol_l=hco3_offset_mmol_l, shunt_fraction=shunt_fraction, p50_mmhg=p50_mmhg)
     given = {k: np.asarray(v, dtype=float) for k, v in arrays.items() if v is not None}
-    shape = np.broadcast(*given.values()).shape
+    shape = np.broadcast_shapes(*(v.shape for v in given.values()))
     size = int(np.prod(shape)) if shape else 1
     if size > CHUNK_SIZE:
-        # cache-sized pieces: the same arithmetic, without paging fresh memory for every temporary
-        flat = {k: np.broadcast_to(v, shape).ravel() for k, v in given.items()}
-        parts = [assess(atmosphere=atmosphere, **{k: v[i:i + CHUNK_SIZE] for k, v in flat.items()})
-                 for i in range(0, size, CHUNK_SIZE)]
-        out = {}
-        for key in ASSESS_KEYS:
-            if key == "atmosphere":
-                out[key] = parts[0][key]
-            else:
-                out[key] = np.concatenate([part[key] for part in parts]).reshape(shape)
-        return out
+        # cache-sized pieces: the same arithmetic, without paging fresh memory for every temporary;
+        # inputs that do not vary stay scalars, results go straight into the outputs
+        flat = {k: (v.reshape(()) if v.size == 1 else np.broadcast_to(v, shape).ravel()) for k, v in given.items()}
+        out = {key: np.empty(size, dtype=bool if key in _FLAG_KEYS else float)
+               for key in ASSESS_KEYS if key != "atmosphere"}
+        for i in range(0, size, CHUNK_SIZE):
+            j = min(size, i + CHUNK_SIZE)
+            part = _evaluate(atmosphere, **{k: (v if v.ndim == 0 else v[i:j]) for k, v in flat.items()})
+            for key, value in part.items():
+                if key == "atmosphere":
+                    out[key] = value
+                else:
+                    out[key][i:j] = value
+        return {key: (out[key] if key == "atmosphere" else out[key].reshape(shape)) for key in ASSESS_KEYS}
+    part = _evaluate(atmosphere, **given)
+    shape = np.broadcast_shapes(*(np.shape(v) for v in part.values() if not isinstance(v, str)))
+
+    def full(key):
+        return np.broadcast_to(np.asarray(part[key], dtype=bool if key in _FLAG_KEYS else float), shape).copy()
+
+    if shape == ():
+        return {k: (part[k] if k == "atmosphere" else full(k).item()) for k in ASSESS_KEYS}
+    return {k: (part[k] if k == "atmosphere" else full(k)) for k in ASSESS_KEYS}
+
+
+_FLAG_KEYS = ("alveolar_po2_clamped", "equivalent_altitude_clipped", "solver_converged")
+
+
+def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_FIO2, days=0.0, f_ventilatory=None,
+              f_renal=None, age_y=40.0, hb_g_dl=None, rq=gas_exchange.DEFAULT_RQ, body_temp_c=37.0,
+              paco2_mmhg=None, ph=None, metabolic_ratio=1.0, hypoxic_gain_scale=1.0, drive_scale=1.0,
+              hco3_offset_mmol_l=0.0, shunt_fraction=None, p50_mmhg=None) -> dict:
+    """The chain on one piece: each result as computed (broadcastable, not yet expanded)."""
     if altitude_m is None and pb_mmhg is None:
         raise OutOfRangeError("give an altitude or a measured pressure", field="altitude",
                               expected="an altitude in m or a pressure in mmHg")
@@ -205,34 +227,26 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
     clipped = (pb_eq < p_min) | (pb_eq > p_max)
     eq_alt = np.asarray(altitude_for_pressure(np.clip(pb_eq, p_min, p_max), eq_atm))
 
-    shape = np.broadcast(alt, pb, fio2_a, fv, fr, hb, pao2_art, np.asarray(age_y)).shape
-
-    def full(a, dtype=float):
-        return np.broadcast_to(np.asarray(a, dtype=dtype), shape).copy()
-
-    result = {
-        "altitude_m": full(alt),
+    return {
+        "altitude_m": alt,
         "atmosphere": atm_label,
-        "barometric_mmhg": full(pb),
-        "fio2": full(fio2_a),
-        "days_at_altitude": full(days if (f_ventilatory is None and f_renal is None) else np.nan),
-        "inspired_po2_mmhg": full(pio2),
-        "alveolar_pco2_mmhg": full(paco2),
-        "alveolar_po2_mmhg": full(pao2),
-        "arterial_po2_mmhg": full(pao2_art),
-        "arterial_pco2_mmhg": full(paco2),
-        "arterial_ph": full(ph_a),
-        "bicarbonate_mmol_l": full(hco3),
-        "sao2_pct": full(100.0 * sao2),
-        "hemoglobin_g_dl": full(hb),
-        "o2_content_ml_dl": full(content),
-        "equivalent_altitude_m": full(eq_alt),
-        "ventilation_ratio": full(vent_ratio),
-        "alveolar_arterial_mmhg": full(pao2 - pao2_art),
-        "alveolar_po2_clamped": full(clamped, bool),
-        "equivalent_altitude_clipped": full(clipped, bool),
-        "solver_converged": full(converged, bool),
+        "barometric_mmhg": pb,
+        "fio2": fio2_a,
+        "days_at_altitude": days if (f_ventilatory is None and f_renal is None) else np.nan,
+        "inspired_po2_mmhg": pio2,
+        "alveolar_pco2_mmhg": paco2,
+        "alveolar_po2_mmhg": pao2,
+        "arterial_po2_mmhg": pao2_art,
+        "arterial_pco2_mmhg": paco2,
+        "arterial_ph": ph_a,
+        "bicarbonate_mmol_l": hco3,
+        "sao2_pct": 100.0 * sao2,
+        "hemoglobin_g_dl": hb,
+        "o2_content_ml_dl": content,
+        "equivalent_altitude_m": eq_alt,
+        "ventilation_ratio": vent_ratio,
+        "alveolar_arterial_mmhg": pao2 - pao2_art,
+        "alveolar_po2_clamped": clamped,
+        "equivalent_altitude_clipped": clipped,
+        "solver_converged": converged,
     }
-    if shape == ():
-        return {k: (v if isinstance(v, str) else v.item()) for k, v in result.items()}
-    return result
