@@ -251,20 +251,22 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     total = n_knots + n_samples
     sao2_k = np.empty((n_people, n, n_knots))
     step = max(1, int(max_chunk_elements // max(1, n_people * n)))
-    # awake knots first, then asleep: each chunk then has one chemoreflex drive (and the solver one
-    # tabulated first guess for it)
-    order = np.argsort(tl.sleeping[k_index], kind="stable")
-    for a in range(0, n_knots, step):
-        b = min(n_knots, a + step)
-        pos = order[a:b]
-        ks = k_index[pos]
-        r = assess(np.broadcast_to(alt[ks], (n_people, n, b - a)),
-                   pb_mmhg=np.broadcast_to(pb[ks], (n_people, n, b - a)), atmosphere=atmosphere,
-                   f_ventilatory=f_v[:, None, ks], f_renal=f_r[:, None, ks], drive_scale=drive[None, None, ks],
-                   **member_kw)
-        sao2_k[:, :, pos] = r["sao2_pct"]
-        if progress is not None:
-            progress(b, total)
+    # awake and asleep knots in separate calls: each call then has one chemoreflex drive (and the
+    # solver one tabulated first guess for it)
+    asleep = tl.sleeping[k_index]
+    done = 0
+    for group in (np.flatnonzero(~asleep), np.flatnonzero(asleep)):
+        for a in range(0, group.size, step):
+            pos = group[a:a + step]
+            ks = k_index[pos]
+            r = assess(np.broadcast_to(alt[ks], (n_people, n, pos.size)),
+                       pb_mmhg=np.broadcast_to(pb[ks], (n_people, n, pos.size)), atmosphere=atmosphere,
+                       f_ventilatory=f_v[:, None, ks], f_renal=f_r[:, None, ks],
+                       drive_scale=drive[None, None, ks], **member_kw)
+            sao2_k[:, :, pos] = r["sao2_pct"]
+            done += pos.size
+            if progress is not None:
+                progress(done, total)
     out = np.empty((len(p), n_people, n_samples))
     for a in range(0, n_samples, step):
         b = min(n_samples, a + step)

@@ -363,9 +363,15 @@ def _axis_position(values, grid):
     return i, pos
 
 
-def _key_value(a, step):
-    """Stand-in of one input for the guess table: a scalar as given, an array's mean rounded to ``step``."""
-    if a.ndim == 0:
+#: below this many elements a table built for exact scalar inputs costs more than it saves: such
+#: calls share the tables of rounded inputs
+EXACT_KEY_MIN_SIZE = 4096
+
+
+def _key_value(a, step, exact):
+    """Stand-in of one input for the guess table: a scalar as given (``exact``), else rounded to ``step``
+    (an array by its mean)."""
+    if a.ndim == 0 and exact:
         return round(float(a), 9)
     return round(round(float(np.mean(a)) / step) * step, 6)
 
@@ -373,7 +379,9 @@ def _key_value(a, step):
 def _initial_guess(args, params):
     """Trilinear interpolation in the guess table; scalar stand-ins for the other inputs."""
     pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = args
-    key = tuple(_key_value(a, step) for a, step in zip((fio2_a, rq_a, met, gscale, dscale, off), _GUESS_KEY_STEPS))
+    exact = pio2.size >= EXACT_KEY_MIN_SIZE
+    key = tuple(_key_value(a, step, exact)
+                for a, step in zip((fio2_a, rq_a, met, gscale, dscale, off), _GUESS_KEY_STEPS))
     table = _guess_table(*key) if params is None else _guess_table.__wrapped__(*key)
     i, wi = _axis_position(pio2, _GUESS_PIO2)
     j, wj = _axis_position(np.asarray(fv, dtype=float), _GUESS_F)
