@@ -344,13 +344,32 @@ _GUESS_KEY_STEPS = (0.05, 0.05, 0.1, 0.5, 0.1, 4.0)   # fio2, rq, metabolic, gai
 
 
 @lru_cache(maxsize=32)
+def _guess_store(fio2, rq, met, gscale, dscale, off):
+    """The (partly built) guess table of one key: ln x per PIO2 row x f_ventilatory x f_renal, and
+    which PIO2 rows are solved. Rows are solved when first needed (:func:`_guess_rows`)."""
+    nf = _GUESS_F.size
+    return np.full(_GUESS_PIO2.size * nf * nf, np.nan), np.zeros(_GUESS_PIO2.size, dtype=bool)
+
+
+def _guess_rows(key, first, last, params=None):
+    """The flat guess table of ``key`` with at least PIO2 rows ``first`` to ``last`` solved."""
+    table, built = _guess_store(*key) if params is None else _guess_store.__wrapped__(*key)
+    missing = np.flatnonzero(~built[first:last + 1]) + first
+    if missing.size:
+        pio2, fv, fr = np.meshgrid(_GUESS_PIO2[missing], _GUESS_F, _GUESS_F, indexing="ij")
+        fio2, rq, met, gscale, dscale, off = key
+        g_pio2, state, args = _make_state(pio2.ravel(), fio2, rq, fv.ravel(), fr.ravel(), met, gscale, dscale, off,
+                                          params)
+        u, _, _ = _solve_bracketed(g_pio2, state, 80, 1e-12, args, params)
+        nf2 = _GUESS_F.size ** 2
+        table.reshape(_GUESS_PIO2.size, nf2)[missing] = u.reshape(missing.size, nf2)
+        built[missing] = True
+    return table
+
+
 def _guess_table(fio2, rq, met, gscale, dscale, off):
-    """ln x solved on a grid of PIO2 x f_ventilatory x f_renal, for the initial guess (flat array)."""
-    pio2, fv, fr = np.meshgrid(_GUESS_PIO2, _GUESS_F, _GUESS_F, indexing="ij")
-    g_pio2, state, args = _make_state(pio2.ravel(), fio2, rq, fv.ravel(), fr.ravel(), met, gscale, dscale, off,
-                                      None)
-    u, _, _ = _solve_bracketed(g_pio2, state, 80, 1e-12, args)
-    return u
+    """ln x solved on the whole grid of PIO2 x f_ventilatory x f_renal (flat array)."""
+    return _guess_rows((fio2, rq, met, gscale, dscale, off), 0, _GUESS_PIO2.size - 1)
 
 
 def _axis_position(values, grid):
@@ -382,8 +401,10 @@ def _initial_guess(args, params):
     exact = pio2.size >= EXACT_KEY_MIN_SIZE
     key = tuple(_key_value(a, step, exact)
                 for a, step in zip((fio2_a, rq_a, met, gscale, dscale, off), _GUESS_KEY_STEPS))
-    table = _guess_table(*key) if params is None else _guess_table.__wrapped__(*key)
     i, wi = _axis_position(pio2, _GUESS_PIO2)
+    # only the PIO2 rows this input needs (and the next, for the interpolation) are solved
+    first, last = (int(i.min()), int(i.max()) + 1) if i.size else (0, 1)
+    table = _guess_rows(key, first, last, params)
     j, wj = _axis_position(np.asarray(fv, dtype=float), _GUESS_F)
     k, wk = _axis_position(np.asarray(fr, dtype=float), _GUESS_F)
     nf = _GUESS_F.size
