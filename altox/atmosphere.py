@@ -121,6 +121,13 @@ def isa_pressure_pa(altitude_m):
     h_base, t_base, beta, p_base, g0, r_gas, r_earth = _isa_layers()
     h = np.asarray(altitude_m, dtype=float)
     geop = r_earth * h / (r_earth + h)
+    one = _single_layer(geop, h_base)
+    if one is not None:   # all in one layer (the usual case): scalar constants, one formula
+        dh = geop - h_base[one]
+        if beta[one] != 0.0:
+            with np.errstate(invalid="ignore", divide="ignore"):
+                return p_base[one] * (1.0 + (beta[one] / t_base[one]) * dh) ** (-g0 / (r_gas * beta[one]))
+        return p_base[one] * np.exp(-g0 * dh / (r_gas * t_base[one]))
     i = np.clip(np.searchsorted(h_base, geop, side="right") - 1, 0, h_base.size - 2)
     hb, tb, b, pb = h_base[i], t_base[i], beta[i], p_base[i]
     dh = geop - hb
@@ -131,11 +138,36 @@ def isa_pressure_pa(altitude_m):
     return np.where(b != 0.0, grad, iso)
 
 
+def _single_layer(values, bases):
+    """Index of the layer holding every value when they all lie in one (by their extremes), else None.
+
+    ``bases`` increase; layer i holds ``bases[i] <= v < bases[i+1]`` (the first and last layers
+    extend outwards, as in the clipped search of the general path)."""
+    v = np.asarray(values)
+    if v.size == 0:
+        return None
+    lo, hi = float(v.min()), float(v.max())
+    if not (np.isfinite(lo) and np.isfinite(hi)):
+        return None
+    last = bases.size - 2
+    i_lo = min(max(int(np.searchsorted(bases, lo, side="right")) - 1, 0), last)
+    i_hi = min(max(int(np.searchsorted(bases, hi, side="right")) - 1, 0), last)
+    return i_lo if i_lo == i_hi else None
+
+
 def isa_altitude_for_pressure_m(p_pa):
     """Inverse of :func:`isa_pressure_pa` in closed form: geometric altitude of an ISA pressure. [m]"""
     h_base, t_base, beta, p_base, g0, r_gas, r_earth = _isa_layers()
     p = np.asarray(p_pa, dtype=float)
     # base pressures fall with height: layer i holds p_base[i+1] < p <= p_base[i]
+    one = _single_layer(-p, -p_base)
+    if one is not None:
+        hb, tb, b, pb = h_base[one], t_base[one], beta[one], p_base[one]
+        if b != 0.0:
+            geop = hb + (tb / b) * ((p / pb) ** (-r_gas * b / g0) - 1.0)
+        else:
+            geop = hb - r_gas * tb / g0 * np.log(p / pb)
+        return r_earth * geop / (r_earth - geop)
     i = np.clip(np.searchsorted(-p_base, -p, side="right") - 1, 0, h_base.size - 2)
     hb, tb, b, pb = h_base[i], t_base[i], beta[i], p_base[i]
     safe_b = np.where(b != 0.0, b, 1.0)
