@@ -259,7 +259,7 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
     raises PO2, both lowering the drive), so the root is unique in ``x`` from 0.3 to 40.
     The fast path starts from a trilinear guess in a table of solved points (PIO2 x
     ventilatory x renal acclimatization, cached per set of scalar inputs), takes two Newton
-    steps with the analytic derivative on the whole array and evaluates the exact residual
+    steps (four when other inputs vary between elements) with the analytic derivative on the whole array and evaluates the exact residual
     at the result; any element not within ``|g| <= tolerance`` there continues with Newton
     steps on its own, then by the robust path, the Illinois variant of regula falsi on the
     bracket after four halvings.  Roots pinned to the bracket's ends, or not settled after
@@ -279,8 +279,12 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
     converged = np.ones(pio2.shape, dtype=bool)
     # Whole-array Newton steps from the tabulated guess, then the exact residual at the result:
     # an element is done only where that residual is within the tolerance.
+    # inputs other than PIO2 and acclimatization that vary between elements are keyed on a rounded
+    # mean in the guess table, so the guess is rougher: more whole-array steps then cost less than
+    # sending many elements down the per-element path
+    varied = any(a.ndim and a.size > 1 and a.min() != a.max() for a in args[1:3] + args[5:])
     with np.errstate(divide="ignore", invalid="ignore"):
-        for used in range(1, FAST_NEWTON_STEPS + 1):
+        for used in range(1, FAST_NEWTON_STEPS + 1 + (VARIED_EXTRA_STEPS if varied else 0)):
             g, dg = state(u, derivative=True, exact=False)[:2]
             g /= dg
             u -= g
@@ -333,6 +337,7 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
 
 
 FAST_NEWTON_STEPS = 2
+VARIED_EXTRA_STEPS = 2
 # central drive (1 at pH 7.40) below which a root is checked for being resolvable (see equilibrium)
 CLIFF_CENTRAL_DRIVE = 1e-3
 NEWTON_STEPS = 6
