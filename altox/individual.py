@@ -59,11 +59,9 @@ class FactorError(OutOfRangeError):
 @lru_cache(maxsize=1)
 def coefficients() -> dict:
     """The table of ``altox/data/individual.yaml``, loaded once."""
-    from importlib.resources import files
+    from .yamlload import load_data_file
 
-    from .yamlload import load_data_text
-
-    return load_data_text(files("altox").joinpath("data/individual.yaml").read_text(encoding="utf-8"))
+    return load_data_file("individual")
 
 
 def _value(section: str, key: str) -> float:

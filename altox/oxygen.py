@@ -74,11 +74,9 @@ _MMHG_PER_BAR = PA_PER_BAR / PA_PER_MMHG
 def load_data(name: str) -> dict:
     """A data file of ``altox/data`` (``'oxygen_devices'``, ``'cylinders'``, ``'tuc'``,
     ``'activity_ventilation'``), parsed once."""
-    from importlib.resources import files
+    from .yamlload import load_data_file
 
-    from .yamlload import load_data_text
-
-    return load_data_text(files("altox").joinpath(f"data/{name}.yaml").read_text(encoding="utf-8"))
+    return load_data_file(name)
 
 
 def _lookup(table: dict, key: str, what: str, field: str) -> dict:

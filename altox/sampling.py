@@ -98,13 +98,10 @@ class Knots:
         left, right, w = self.left[samples], self.right[samples], self.weight[samples]
         a = np.take(v, left, axis=-1)
         b = np.take(v, right, axis=-1)
-        if v.dtype == bool:
-            return a
-        exact = w == 0.0
-        out = a + w * (b - a)
-        if exact.any():
-            out = np.where(exact, a, out)
-        return out
+        b -= a
+        b *= w
+        b += a      # at a knot w = 0: the knot's own value (finite values, as the chain's are)
+        return b
 
     def interpolate_flag(self, values, samples=slice(None), *, combine):
         """Boolean values at the knots -> samples: ``combine`` (np.logical_and / _or) of the two knots."""

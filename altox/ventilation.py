@@ -38,7 +38,7 @@ from functools import lru_cache
 import numpy as np
 
 from . import blood
-from .gas_exchange import AIR_FIO2, alveolar_gas_factor, alveolar_po2, inspired_po2
+from .gas_exchange import AIR_FIO2, alveolar_gas_factor, alveolar_po2
 from .atmosphere import SEA_LEVEL_MMHG
 
 _LN10 = float(np.log(10.0))
@@ -63,11 +63,9 @@ class VentilationParameters:
 @lru_cache(maxsize=1)
 def model_coefficients() -> dict:
     """The model coefficient table, loaded once from ``altox/data/models.yaml``."""
-    from importlib.resources import files
+    from .yamlload import load_data_file
 
-    import yaml
-
-    return yaml.safe_load(files("altox").joinpath("data/models.yaml").read_text(encoding="utf-8"))
+    return load_data_file("models")
 
 
 @lru_cache(maxsize=1)

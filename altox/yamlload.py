@@ -38,8 +38,11 @@ from .errors import ProfileError
 FAST_SAFE_LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
 
 
-def load_data_text(text: str):
-    """Load one of altox's own data files (trusted YAML: coefficient and rule tables), safely and fast."""
+def load_data_file(name: str):
+    """Parse ``altox/data/<name>.yaml``, one of altox's own (trusted) data files, safely and fast."""
+    from importlib.resources import files
+
+    text = files("altox").joinpath(f"data/{name}.yaml").read_text(encoding="utf-8")
     return yaml.load(text, Loader=FAST_SAFE_LOADER)
 
 __all__ = [
