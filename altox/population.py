@@ -208,7 +208,7 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     from .acclimatization import acclimatization_history
     from .chain import assess
     from .gas_exchange import inspired_po2
-    from .sampling import DEFAULT_KNOT_SPACING_H, Knots, assess_along
+    from .sampling import DEFAULT_KNOT_SPACING_H, Knots
     from .timeline import expand
 
     p = _check_args(n, percentiles)
@@ -237,17 +237,17 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
         return np.array([d[key] for d in dicts], dtype=float)[:, None]
 
     centrals = [d[0] for d in drawn]
-    cres = assess_along(tl.time_h, altitude_m=np.broadcast_to(alt, (n_people, n_samples)),
-                        pb_mmhg=np.broadcast_to(pb, (n_people, n_samples)), atmosphere=atmosphere,
-                        f_ventilatory=f_v, f_renal=f_r, drive_scale=drive[None, :],
-                        **{k: col(centrals, k) for k in centrals[0]})
-    central = np.asarray(cres["sao2_pct"])
-    member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
     # the full solve at the knots of the timeline (segment ends, at most DEFAULT_KNOT_SPACING_H apart),
     # then every sample by interpolation in time (altox.sampling), chunked to bound memory
     knots = Knots(tl.time_h, (pb, drive), DEFAULT_KNOT_SPACING_H)
     k_index = knots.index
     n_knots = k_index.size
+    cres = assess(np.broadcast_to(alt[k_index], (n_people, n_knots)),
+                  pb_mmhg=np.broadcast_to(pb[k_index], (n_people, n_knots)), atmosphere=atmosphere,
+                  f_ventilatory=f_v[:, k_index], f_renal=f_r[:, k_index], drive_scale=drive[None, k_index],
+                  **{k: col(centrals, k) for k in centrals[0]})
+    central = knots.interpolate(np.asarray(cres["sao2_pct"]))
+    member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
     total = n_knots + n_samples
     sao2_k = np.empty((n_people, n, n_knots))
     step = max(1, int(max_chunk_elements // max(1, n_people * n)))
