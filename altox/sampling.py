@@ -123,10 +123,10 @@ def assess_along(time_h, *, spacing_h: float | None = None, **kwargs) -> dict:
 
     knots = Knots(time_h, [v for k, v in kwargs.items() if k not in SMOOTH_KEYWORDS and v is not None
                            and not isinstance(v, str)], DEFAULT_KNOT_SPACING_H if spacing_h is None else spacing_h)
-    given = {k: (knots.at_knots(v) if v is not None and not isinstance(v, str) else v) for k, v in kwargs.items()}
     if len(knots) == knots.n:
         return assess(**kwargs)
-    res = assess(**given)
+    res = assess(**{k: (knots.at_knots(v) if v is not None and not isinstance(v, str) else v)
+                    for k, v in kwargs.items()})
     if np.ndim(res["sao2_pct"]) == 0 or np.shape(res["sao2_pct"])[-1] != len(knots):
         return assess(**kwargs)   # nothing varies along the samples: no knots to interpolate between
     out = {}
