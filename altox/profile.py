@@ -736,7 +736,7 @@ class ExpeditionPlan(_PlanBase):
 class Aircraft(_Model):
     """The aircraft and its pressurization."""
 
-    type: StrictStr = Field(description="Free text: the aircraft type.", examples=["Corvane 7"])
+    type: StrictStr = Field(description="Free text: the aircraft type.", examples=["Strelvane 7"])
     pressurized: StrictBool = Field(description="Whether the cabin is pressurized.")
     max_differential_mmhg: Annotated[Optional[float], BeforeValidator(_opt(_differential)),
                                      WithJsonSchema(_qschema("Maximum cabin differential.",

@@ -169,7 +169,7 @@ def read_plan_text(path) -> str:
               "YAML plan file.", value=name, expected=expected)
     if stat.S_ISDIR(st.st_mode):
         _fail(name, None, None, "this is a directory, not a plan file; expected the path of a YAML "
-              "plan file (e.g. profiles/trek-kharsang.yaml).", value=name, expected=expected)
+              "plan file (e.g. profiles/trek-teskavor.yaml).", value=name, expected=expected)
     if not stat.S_ISREG(st.st_mode):
         _fail(name, None, None, "this is not a regular file (a device, pipe or socket); expected a "
               "YAML plan file.", value=name, expected=expected)

@@ -66,7 +66,7 @@ def main(argv=None) -> dict:
     assess = best_of(lambda: altox.assess(altitude_m, atmosphere="isa", days=days), 3)
 
     # scaling: one plan evaluated at 1x, 10x and 100x the samples
-    trek = (ROOT / "profiles" / "trek-kharsang.yaml").read_text(encoding="utf-8")
+    trek = (ROOT / "profiles" / "trek-teskavor.yaml").read_text(encoding="utf-8")
     per_sample = {}
     for factor, every in ((1, "60 min"), (10, "6 min"), (100, "36 s")):
         text = re.sub(r"(?m)^sample_every:.*$", f"sample_every: {every}", trek)
@@ -75,7 +75,7 @@ def main(argv=None) -> dict:
         per_sample[factor] = best_of(lambda plan=plan: evaluate_plan(plan), 3) / samples
 
     floor = process_time([sys.executable, "-c", "import numpy, scipy.optimize, ambiance"])
-    plan_start = process_time([sys.executable, "-m", "altox", "plan", "profiles/trek-kharsang.yaml"])
+    plan_start = process_time([sys.executable, "-m", "altox", "plan", "profiles/trek-teskavor.yaml"])
     help_start = process_time([sys.executable, "-m", "altox", "--help"])
 
     figures = [

@@ -63,7 +63,7 @@ def test_svg_parses_with_title_and_units(results, demo):
 
 
 def test_feet_puts_feet_on_the_main_axis(results):
-    r = results["trek-kharsang"]
+    r = results["trek-teskavor"]
     fig_m, fig_ft = plan_figure(r), plan_figure(r, feet=True)
     assert fig_m.axes[0].get_ylabel() == "Altitude (m)"
     assert fig_ft.axes[0].get_ylabel() == "Altitude (ft)"
@@ -112,13 +112,13 @@ def test_threshold_lines_come_from_the_rule_data(results):
              if (ln.get_gid() or "").startswith("altox-threshold")]
     assert sorted(round(ln.get_ydata()[0]) for ln in drawn) == [12500, 14000, 15000]
     # expeditions: the sleeping altitude above which the guideline applies (3,000 m in wms-2024)
-    trek = results["trek-kharsang"]
+    trek = results["trek-teskavor"]
     above = {th.above_m for th in load_rule_set("wms-2024").thresholds}
     assert [ln["altitude_m"] for ln in threshold_lines(trek, applied_rule_sets(trek)[0])] == sorted(above)
 
 
 def test_saturation_lines_at_the_plans_levels(results):
-    trek = results["trek-kharsang"]
+    trek = results["trek-teskavor"]
     assert saturation_levels_pct(trek) == [90.0, 85.0, 80.0]            # the plan's saturation_levels
     ys = {round(ln.get_ydata()[0], 6) for ln in plan_figure(trek).axes[1].get_lines()
           if ln.get_linestyle() not in ("-", "None") and len(set(ln.get_ydata())) == 1}
@@ -126,8 +126,8 @@ def test_saturation_lines_at_the_plans_levels(results):
 
 
 def test_rest_days_oxygen_and_broken_legs_are_marked(results):
-    trek_ids = svg_ids(render_chart(results["trek-kharsang"], "svg"))
-    rest_legs = [leg["leg"] for leg in results["trek-kharsang"].legs if leg.get("activity") == "rest"]
+    trek_ids = svg_ids(render_chart(results["trek-teskavor"], "svg"))
+    rest_legs = [leg["leg"] for leg in results["trek-teskavor"].legs if leg.get("activity") == "rest"]
     assert rest_legs == [4, 7, 10]
     assert {f"altox-rest-leg-{n}-alt" for n in rest_legs} <= trek_ids
     assert "altox-broken-leg-6-alt" in trek_ids                    # X1: no extra day by day 6
@@ -173,7 +173,7 @@ def test_odd_plan_names_are_drawn_as_written(tmp_path):
 
 def test_cli_chart_default_size_and_formats(tmp_path):
     out = tmp_path / "trek.png"
-    proc = subprocess.run([sys.executable, "-m", "altox", "plan", str(ROOT / "profiles" / "trek-kharsang.yaml"),
+    proc = subprocess.run([sys.executable, "-m", "altox", "plan", str(ROOT / "profiles" / "trek-teskavor.yaml"),
                            "--chart", str(out), "--feet", "--json"], capture_output=True, text=True, env=ENV,
                           cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr

@@ -96,7 +96,7 @@ def test_help_does_not_import_numpy():
     assert out.strip() == "[]"
 
 
-@pytest.mark.parametrize("name", ["jet-highcruise.yaml", "trek-kharsang.yaml"])
+@pytest.mark.parametrize("name", ["jet-highcruise.yaml", "trek-teskavor.yaml"])
 def test_plan_sections_render(name):
     from pathlib import Path
 

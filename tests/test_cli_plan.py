@@ -33,7 +33,7 @@ def test_plan_json_matches_library():
     from altox.evaluate import evaluate_plan
     from altox.profile import load_plan
 
-    demo = ROOT / "profiles" / "trek-kharsang-fast.yaml"
+    demo = ROOT / "profiles" / "trek-teskavor-fast.yaml"
     data = json.loads(run("plan", str(demo), "--json").stdout)
     lib = evaluate_plan(load_plan(demo))
     assert [leg["sao2_pct"] for leg in data["legs"]] == pytest.approx([leg["sao2_pct"] for leg in lib.legs], abs=1e-6)
@@ -56,7 +56,7 @@ def test_plan_several_files_reports_failures(tmp_path):
     bad = tmp_path / "bad.yaml"
     bad.write_text("kind: expedition\nname: x\nstart_altitude: 1000 m\ndays:\n  - {day: 1, sleep: 3000}\n")
     before = bad.read_bytes()
-    good = str(ROOT / "profiles" / "trek-kharsang.yaml")
+    good = str(ROOT / "profiles" / "trek-teskavor.yaml")
     proc = run("plan", good, str(bad), "--json")
     assert proc.returncode == 2
     assert "bad.yaml" in proc.stderr and "1 of 2" in proc.stderr

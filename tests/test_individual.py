@@ -80,7 +80,7 @@ def test_person_kwargs_factors():
 def test_people_kwargs_broadcast_with_samples():
     from altox.profile import load_plan
 
-    plan = load_plan("profiles/trek-kharsang.yaml")
+    plan = load_plan("profiles/trek-teskavor.yaml")
     kw = ind.people_kwargs(plan.party, sleeping=np.array([True, False, False]))
     assert kw["age_y"].shape == (4, 1) and kw["drive_scale"].shape == (1, 3)
     r = assess(np.full((4, 3), 4000.0), atmosphere="mountain", days=2.0, **kw)

@@ -91,7 +91,7 @@ def test_range_contains_the_central_value(alt, days, age, hvr, acz, sleeping, se
 # -- the plan ensemble -----------------------------------------------------------------------------------
 @pytest.fixture(scope="module")
 def trek():
-    return load_plan("profiles/trek-kharsang.yaml")
+    return load_plan("profiles/trek-teskavor.yaml")
 
 
 def test_expected_range_over_a_plan(trek):

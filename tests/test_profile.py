@@ -28,7 +28,7 @@ def doc_yaml_blocks() -> list[str]:
 # -- everything shipped loads ------------------------------------------------------------------
 def test_there_are_five_demo_plans():
     names = {p.name for p in PROFILES}
-    assert {"trek-kharsang.yaml", "trek-kharsang-fast.yaml", "jet-highcruise.yaml",
+    assert {"trek-teskavor.yaml", "trek-teskavor-fast.yaml", "jet-highcruise.yaml",
             "piston-ridge-crossing.yaml", "medevac-transfer.yaml"} <= names
 
 
@@ -52,8 +52,8 @@ def test_doc_example_loads(index):
 
 # -- the demo plans say what they claim ---------------------------------------------------------
 def test_trek_is_gradual_and_fast_trek_is_not():
-    good = load_plan(ROOT / "profiles" / "trek-kharsang.yaml")
-    fast = load_plan(ROOT / "profiles" / "trek-kharsang-fast.yaml")
+    good = load_plan(ROOT / "profiles" / "trek-teskavor.yaml")
+    fast = load_plan(ROOT / "profiles" / "trek-teskavor-fast.yaml")
     assert len(good.days) == 16
     assert max(d.high_m or d.sleep_m for d in good.days) == pytest.approx(6112.0)
 
@@ -90,7 +90,7 @@ def test_flight_demos():
 
 
 def test_parsed_units():
-    plan = load_plan(ROOT / "profiles" / "trek-kharsang.yaml")
+    plan = load_plan(ROOT / "profiles" / "trek-teskavor.yaml")
     ilse = next(m for m in plan.party if m.name == "Ilse Varnholt")
     assert ilse.hemoglobin_g_dl == pytest.approx(13.4)   # written as 134 g/L
     assert plan.days[3].hours_high_h == pytest.approx(2.0)

@@ -47,7 +47,7 @@ def test_lake_louise_vectorised_total_only_and_bad_items():
 # -- review of the demo trek --------------------------------------------------------------------------------
 @pytest.fixture(scope="module")
 def trek():
-    return load_plan("profiles/trek-kharsang.yaml")
+    return load_plan("profiles/trek-teskavor.yaml")
 
 
 @pytest.fixture(scope="module")
@@ -117,7 +117,7 @@ def _app():
 
 
 def test_readings_command_json():
-    res = CliRunner().invoke(_app(), ["readings", "profiles/trek-kharsang.yaml", "--members", "100", "--json"])
+    res = CliRunner().invoke(_app(), ["readings", "profiles/trek-teskavor.yaml", "--members", "100", "--json"])
     assert res.exit_code == 0, res.output
     data = json.loads(res.stdout)
     assert data["seed"] == 20240601 and "not a diagnosis" in data["caution"]
@@ -131,6 +131,6 @@ def test_fitness_command_json_and_errors():
     res = CliRunner().invoke(_app(), ["fitness-to-fly", "profiles/medevac-transfer.yaml", "--json"])
     assert res.exit_code == 0 and json.loads(res.stdout)[0]["name"] == "Patient M."
     for args in (["fitness-to-fly"], ["fitness-to-fly", "--pao2", "61"], ["readings", "nope.yaml"],
-                 ["fitness-to-fly", "profiles/trek-kharsang.yaml"]):
+                 ["fitness-to-fly", "profiles/trek-teskavor.yaml"]):
         res = CliRunner().invoke(_app(), args)
         assert res.exit_code == 2, (args, res.output)

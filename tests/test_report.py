@@ -186,7 +186,7 @@ def test_readme_chart_and_report_commands(tmp_path):
     """The README's example commands make a chart and a report of the demo trek and the jet."""
     readme = (ROOT / "README.md").read_text(encoding="utf-8")
     commands = re.findall(r"`altox (plan profiles/\S+\.yaml --chart \S+ --report \S+)`", readme)
-    assert {c.split()[1] for c in commands} >= {"profiles/trek-kharsang.yaml", "profiles/jet-highcruise.yaml"}
+    assert {c.split()[1] for c in commands} >= {"profiles/trek-teskavor.yaml", "profiles/jet-highcruise.yaml"}
     for command in commands:
         args = command.split()
         args[1] = str(ROOT / args[1])
@@ -247,7 +247,7 @@ def test_check_output_refusals(tmp_path):
 
 def test_cli_report_force_and_the_plan_untouched(tmp_path):
     plan = tmp_path / "trek.yaml"
-    shutil.copyfile(ROOT / "profiles" / "trek-kharsang.yaml", plan)
+    shutil.copyfile(ROOT / "profiles" / "trek-teskavor.yaml", plan)
     before = (plan.read_bytes(), plan.stat().st_mtime_ns)
     out = tmp_path / "trek.html"
 

@@ -84,7 +84,7 @@ def test_knots_hold_segment_ends_and_are_exact_there():
     np.testing.assert_allclose(k.interpolate((2.0 * t + 1.0)[k.index]), 2.0 * t + 1.0, rtol=0, atol=1e-12)
 
 
-@pytest.mark.parametrize("path", ["profiles/trek-kharsang.yaml", "profiles/trek-kharsang-fast.yaml"])
+@pytest.mark.parametrize("path", ["profiles/trek-teskavor.yaml", "profiles/trek-teskavor-fast.yaml"])
 def test_plan_on_knots_equals_every_sample(path, monkeypatch):
     plan = _resampled(path, "1 min")
     fast = evaluate_module.evaluate_plan(plan)
@@ -121,7 +121,7 @@ def test_assess_along_flags_are_conservative():
 def test_ensemble_on_knots_equals_every_sample(monkeypatch):
     import altox.sampling as sampling
 
-    plan = _resampled("profiles/trek-kharsang-fast.yaml", "5 min")
+    plan = _resampled("profiles/trek-teskavor-fast.yaml", "5 min")
     fast = pop.expected_range(plan, n=40, seed=3)
     monkeypatch.setattr(sampling, "DEFAULT_KNOT_SPACING_H", 1e-6)   # every sample a knot: the reference
     ref = pop.expected_range(plan, n=40, seed=3)

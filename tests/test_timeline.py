@@ -177,7 +177,7 @@ def test_sampling_grid(timelines):
 
 # -- expeditions -------------------------------------------------------------------------------------
 def test_sleeping_flags_cover_nights(timelines):
-    plan, tl = timelines["trek-kharsang"]
+    plan, tl = timelines["trek-teskavor"]
     clock = np.round(tl.time_h % 24.0, 9)
     night = (clock >= 22.0) | (clock < 6.0)
     np.testing.assert_array_equal(tl.sleeping, night)
@@ -192,7 +192,7 @@ def test_sleeping_flags_cover_nights(timelines):
 
 
 def test_high_point_hours(timelines):
-    plan, tl = timelines["trek-kharsang"]
+    plan, tl = timelines["trek-teskavor"]
     for i, day in enumerate(plan.days):
         mask = tl.of_leg(i)
         if day.high_m is None:
@@ -207,7 +207,7 @@ def test_high_point_hours(timelines):
 
 
 def test_expedition_pressure(timelines):
-    plan, tl = timelines["trek-kharsang"]
+    plan, tl = timelines["trek-teskavor"]
     np.testing.assert_allclose(tl.aircraft_altitude_m, tl.altitude_m)
     np.testing.assert_allclose(tl.cabin_pressure_altitude_ft, tl.altitude_m / M_PER_FT)
     base_camp = np.isclose(tl.altitude_m, 4980.0)
