@@ -84,7 +84,8 @@ def _findings(plan, tl, rule_sets):
 
     findings = []
     if plan.kind == "flight":
-        use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in tl.oxygen])
+        names = [{"patient": "none"}.get(OXYGEN_NAMES[c], OXYGEN_NAMES[c]) for c in range(len(OXYGEN_NAMES))]
+        use = np.array(names)[tl.oxygen]
         for rs in rule_sets:
             if rs.kind == "aviation":
                 findings += check_flight(tl.time_h, tl.duration_h, tl.cabin_pressure_altitude_ft, tl.leg, use, rs)
