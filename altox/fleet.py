@@ -36,13 +36,14 @@ from typing import Iterable, Iterator
 import numpy as np
 
 from .errors import AltoxError
+from .evaluate import SUMMARY_CABIN_FT
 
 __all__ = ["PlanSource", "iter_sources", "review_sources", "review_plans", "review_batch",
            "FleetSummary", "CABIN_THRESHOLDS_FT", "CSV_COLUMNS", "DEFAULT_BATCH", "result_csv_row",
            "CsvWriter", "to_json_line"]
 
-#: cabin pressure altitudes the review reports time above [ft] (as in ``altox plan``'s summary)
-CABIN_THRESHOLDS_FT = (10000, 12500, 14000, 15000)
+#: cabin pressure altitudes the review reports time above [ft] (``altox plan``'s summary figures)
+CABIN_THRESHOLDS_FT = tuple(int(x) for x in SUMMARY_CABIN_FT)
 #: plans evaluated together in one call of the chain
 DEFAULT_BATCH = 256
 _PLAN_SUFFIXES = (".yaml", ".yml")
@@ -218,22 +219,29 @@ def _physiology(kind: str, timelines: list) -> list:
     return out
 
 
-def _finding_rows(plan, tl, findings, rule_sets) -> list[dict]:
-    by_id = {rs.id: rs for rs in rule_sets}
-    rows = []
-    for f in findings:
-        minutes = None
-        if plan.kind == "flight":
+def _finding_rows(plan, findings, rule_sets) -> list[dict]:
+    rows, minutes = [], {}
+    if plan.kind == "flight" and findings:
+        from .rules.checker import hours_above
+        from .timeline import cabin_crossings
+
+        by_id = {rs.id: rs for rs in rule_sets}
+        bands = {}
+        for f in findings:
             th = next((t for t in by_id[f.rule_set_id].thresholds if t.id == f.threshold_id), None)
             if th is not None:
-                band = tl.cabin_pressure_altitude_ft > th.lower_ft + 1e-6
-                if th.top_ft is not None:
-                    band &= tl.cabin_pressure_altitude_ft <= th.top_ft + 1e-6
-                minutes = round(float(np.sum(tl.duration_h[band])) * 60.0, 2)
+                bands[(f.rule_set_id, f.threshold_id)] = (th.lower_ft, th.top_ft)
+        figures = [x for band in bands.values() for x in band if x is not None]
+        pieces = cabin_crossings(plan, figures)
+        for key, (lower, top) in bands.items():
+            h = hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, lower)
+            if top is not None:
+                h -= hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, top)
+            minutes[key] = round(60.0 * h, 2)
+    for f in findings:
         rows.append({"rule_set": f.rule_set_id, "threshold": f.threshold_id, "citation": f.citation,
                      "status": f.status, "broken": f.status in ("required-not-planned", "limit-exceeded"),
-                     "legs": [int(x) + 1 for x in f.legs] if plan.kind == "flight" else [int(x) for x in f.legs],
-                     "minutes": minutes})
+                     "legs": [int(x) for x in f.legs], "minutes": minutes.get((f.rule_set_id, f.threshold_id))})
     return rows
 
 
@@ -335,7 +343,7 @@ def review_batch(sources: list, *, rules: tuple = (), oxygen: bool = False,
 
 
 def _result_line(src, plan, tl, rule_sets, phys, oxygen, decompression, rules) -> dict:
-    from .evaluate import _findings
+    from .evaluate import guidance_findings
     from .ventilation import model_coefficients
 
     sao2, pio2, ok = phys
@@ -344,8 +352,8 @@ def _result_line(src, plan, tl, rule_sets, phys, oxygen, decompression, rules) -
     dt = tl.duration_h
     w = int(np.argmin(sao2))
     leg = int(tl.leg[w])
-    findings = _findings(plan, tl, rule_sets)
-    rows = _finding_rows(plan, tl, findings, rule_sets)
+    findings, cabin_hours = guidance_findings(plan, rule_sets)
+    rows = _finding_rows(plan, findings, rule_sets)
     levels = sorted(plan.saturation_levels, reverse=True)
     line = {
         "plan": plan.name, "source": src.name, "kind": plan.kind, "status": "ok", "error": None,
@@ -360,8 +368,7 @@ def _result_line(src, plan, tl, rule_sets, phys, oxygen, decompression, rules) -
         "total_hours": round(float(dt.sum()), 4),
         "hypoxic_dose_kmh": round(float(np.sum(np.maximum(tl.altitude_m - plan.dose_floor_m, 0.0) * dt) / 1000.0), 3),
         "hours_below_pct": {str(round(100 * lvl)): round(float(np.sum(dt[sao2 < 100 * lvl])), 4) for lvl in levels},
-        "hours_cabin_above_ft": ({str(t): round(float(np.sum(dt[tl.cabin_pressure_altitude_ft > t])), 4)
-                                  for t in CABIN_THRESHOLDS_FT} if plan.kind == "flight" else {}),
+        "hours_cabin_above_ft": {str(int(t)): round(float(h), 4) for t, h in cabin_hours.items()},
         "rule_sets": [rs.id for rs in rule_sets],
         "rules_broken": sum(r["broken"] for r in rows),
         "rules": rows,
