@@ -78,16 +78,42 @@ def _rule_sets(plan):
     return sets
 
 
-def _findings(plan, tl, rule_sets):
-    from .rules.checker import check_flight, check_itinerary
-    from .timeline import OXYGEN_NAMES
+#: cabin altitudes [ft] whose time above is summed for a flight's summary
+SUMMARY_CABIN_FT = (10000.0, 12500.0, 14000.0, 15000.0)
 
-    findings = []
+
+def guidance_findings(plan, rule_sets=None):
+    """Findings of a plan against its rule sets, and (flights) the exact time above each cabin figure.
+
+    Flights are checked on :func:`altox.timeline.cabin_crossings`: the profile cut at the exact
+    times the cabin crosses every threshold of the rule sets, so each verdict and each minute
+    count is independent of ``sample_every``.  Expeditions are checked night by night.
+
+    Returns
+    -------
+    (findings, cabin_hours)
+        ``cabin_hours`` maps each of :data:`SUMMARY_CABIN_FT` to the hours with the cabin
+        strictly above it (empty for an expedition).
+    """
+    from .rules.checker import check_flight, check_itinerary, hours_above
+    from .timeline import OXYGEN_NAMES, cabin_crossings
+
+    rule_sets = _rule_sets(plan) if rule_sets is None else rule_sets
+    findings, cabin_hours = [], {}
     if plan.kind == "flight":
-        use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in tl.oxygen])
+        figures = list(SUMMARY_CABIN_FT)
         for rs in rule_sets:
             if rs.kind == "aviation":
-                findings += check_flight(tl.time_h, tl.duration_h, tl.cabin_pressure_altitude_ft, tl.leg + 1, use, rs)
+                for th in rs.thresholds:
+                    figures += [th.lower_ft] + ([th.top_ft] if th.top_ft is not None else [])
+        pieces = cabin_crossings(plan, figures)
+        use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in pieces.oxygen])
+        for rs in rule_sets:
+            if rs.kind == "aviation":
+                findings += check_flight(pieces.time_h, pieces.duration_h, pieces.cabin_pressure_altitude_ft,
+                                         pieces.leg + 1, use, rs)
+        cabin_hours = {x: hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, x)
+                       for x in SUMMARY_CABIN_FT}
     else:
         day = np.array([d.day for d in plan.days])
         sleep = np.array([d.sleep_m for d in plan.days])
@@ -95,7 +121,7 @@ def _findings(plan, tl, rule_sets):
         for rs in rule_sets:
             if rs.kind == "expedition":
                 findings += check_itinerary(day, sleep, high, plan.start_altitude_m, rs)
-    return findings
+    return findings, cabin_hours
 
 
 def evaluate_plan(plan, *, people_override=None) -> PlanResult:
@@ -141,7 +167,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     levels = sorted(plan.saturation_levels, reverse=True)
     ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
     below = {lvl: np.cumsum(dt * (ref["sao2_pct"] < 100 * lvl)) for lvl in levels}
-    findings = _findings(plan, tl, rule_sets := _rule_sets(plan))
+    findings, cabin_hours = guidance_findings(plan, rule_sets := _rule_sets(plan))
 
     legs = []
     if plan.kind == "flight":
@@ -224,9 +250,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     for lvl in levels:
         summary[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][-1])
     if plan.kind == "flight":
-        for threshold_ft in (10000.0, 12500.0, 14000.0, 15000.0):
-            summary[f"hours_cabin_above_{int(threshold_ft)}_ft"] = float(
-                np.sum(dt * (tl.cabin_pressure_altitude_ft > threshold_ft)))
+        for threshold_ft, hours in cabin_hours.items():
+            summary[f"hours_cabin_above_{int(threshold_ft)}_ft"] = hours
     samples = {"time_h": tl.time_h, "duration_h": dt, "leg": tl.leg + 1, "altitude_m": tl.altitude_m,
                "aircraft_altitude_m": tl.aircraft_altitude_m, "sleeping": tl.sleeping,
                "oxygen_code": tl.oxygen, "cabin_pressure_altitude_ft": tl.cabin_pressure_altitude_ft,
@@ -252,15 +277,20 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
                       samples, member_samples, members, findings, summary, notes)
 
 
-def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, progress=None) -> dict:
+def plan_extras(plan, result, *, members: int | None = None, seed: int | None = None, progress=None) -> dict:
     """The reviews that sit beside the per-leg tables: expected ranges (people), readings, oxygen, decompression.
 
     Each is a plain mapping (arrays as numpy); :mod:`altox.render` presents them. ``members``
-    simulated people per person for the expected range (0 skips it).
+    simulated people per person for the expected range (default
+    :data:`altox.defaults.ENSEMBLE_MEMBERS`, the same as ``altox range`` and ``altox readings``;
+    0 skips only the simulation: readings are still reviewed, against each member's central value,
+    the party and published levels, and a note in ``result.notes`` says so).
     """
     from .oxygen_plan import decompression_review, oxygen_review
-    from .population import DEFAULT_SEED, expected_range
-    from .readings import review
+    from .population import DEFAULT_MEMBERS, DEFAULT_SEED, expected_range
+    from .readings import central_ranges, review
+
+    members = DEFAULT_MEMBERS if members is None else members
 
     extras = {"oxygen": oxygen_review(plan, result), "decompression": decompression_review(plan, result)}
     people = plan.party if plan.kind == "expedition" else plan.aboard
@@ -272,11 +302,18 @@ def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, pr
             cabin_ft = float(np.max(result.samples["cabin_pressure_altitude_ft"]))
             ground_ft = float(plan.departure_elevation_m) / M_PER_FT
             extras["fitness_to_fly"] = [occupant_fitness_to_fly(o, cabin_ft, ground_ft) for o in with_ground]
+    observed = plan.kind == "expedition" and bool(getattr(plan, "observations", None))
     if members and people:
         extras["ranges"] = expected_range(plan, result, n=members, seed=DEFAULT_SEED if seed is None else seed,
                                           progress=progress)
-        if plan.kind == "expedition" and getattr(plan, "observations", None):
+        if observed:
             extras["readings"] = review(plan, result, extras["ranges"])
+    elif people:
+        result.notes.append("No simulated people (members 0): the expected range is not computed"
+                            + ("; readings are reviewed against each member's own central value, the party's "
+                               "readings and published levels, without the range check." if observed else "."))
+        if observed:
+            extras["readings"] = review(plan, result, central_ranges(result))
     return extras
 
 
