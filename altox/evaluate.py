@@ -87,7 +87,7 @@ def _findings(plan, tl, rule_sets):
         use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in tl.oxygen])
         for rs in rule_sets:
             if rs.kind == "aviation":
-                findings += check_flight(tl.time_h, tl.duration_h, tl.cabin_pressure_altitude_ft, tl.leg, use, rs)
+                findings += check_flight(tl.time_h, tl.duration_h, tl.cabin_pressure_altitude_ft, tl.leg + 1, use, rs)
     else:
         day = np.array([d.day for d in plan.days])
         sleep = np.array([d.sleep_m for d in plan.days])
@@ -186,11 +186,11 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         leg["flags"] = []
         legs.append(leg)
 
-    # attach findings to legs (expedition findings carry day numbers, flight findings leg indexes)
+    # attach findings to legs (expedition findings carry day numbers, flight findings 1-based leg numbers)
     for k, f in enumerate(findings):
         for ref_leg in f.legs:
             for leg in legs:
-                hit = (leg.get("day") == ref_leg) if plan.kind == "expedition" else (leg["leg"] - 1 == ref_leg)
+                hit = (leg.get("day") == ref_leg) if plan.kind == "expedition" else (leg["leg"] == ref_leg)
                 if hit:
                     leg["flags"].append(k)
 

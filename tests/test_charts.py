@@ -8,6 +8,7 @@ import xml.etree.ElementTree as ET
 from pathlib import Path
 
 import pytest
+from clirun import run_cli
 
 from altox.charts import (CHART_DPI, CHART_SIZE_IN, applied_rule_sets, plan_figure, render_chart,
                           saturation_levels_pct, threshold_lines)
@@ -173,14 +174,12 @@ def test_odd_plan_names_are_drawn_as_written(tmp_path):
 
 def test_cli_chart_default_size_and_formats(tmp_path):
     out = tmp_path / "trek.png"
-    proc = subprocess.run([sys.executable, "-m", "altox", "plan", str(ROOT / "profiles" / "trek-teskavor.yaml"),
-                           "--chart", str(out), "--feet", "--json"], capture_output=True, text=True, env=ENV,
-                          cwd=tmp_path)
+    proc = run_cli("plan", ROOT / "profiles" / "trek-teskavor.yaml", "--chart", out, "--feet", "--json",
+                   "--members", "0", env={"COLUMNS": "80"}, cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     assert proc.stdout.lstrip().startswith("{")                   # --json output stays clean
     assert png_size(out.read_bytes()) == (round(CHART_SIZE_IN[0] * CHART_DPI), round(CHART_SIZE_IN[1] * CHART_DPI))
     assert [p.name for p in tmp_path.iterdir()] == ["trek.png"]    # no temporary file left behind
-    bad = subprocess.run([sys.executable, "-m", "altox", "plan", str(DEMOS[0]), "--chart", str(tmp_path / "x.jpg")],
-                         capture_output=True, text=True, env=ENV)
+    bad = run_cli("plan", DEMOS[0], "--chart", tmp_path / "x.jpg", "--members", "0")
     assert bad.returncode == 2 and "--chart" in bad.stderr and "x.jpg" in bad.stderr
     assert len(bad.stderr.strip().splitlines()) == 1

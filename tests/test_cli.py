@@ -4,13 +4,20 @@ import json
 import os
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
+from clirun import run_cli
 
 ENV = {**os.environ, "COLUMNS": "100", "NO_COLOR": "1"}
 
 
 def run(*args, timeout=60):
+    return run_cli(*args)
+
+
+def run_process(*args, timeout=60):
+    """The console entry point in a new interpreter (smoke tests only)."""
     return subprocess.run([sys.executable, "-m", "altox", *args], capture_output=True, text=True,
                           env=ENV, timeout=timeout)
 
@@ -70,6 +77,17 @@ def test_point_bad_input(args, needle):
     assert needle in proc.stderr
     assert "Traceback" not in proc.stderr and "Traceback" not in proc.stdout
     assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_console_entry_point_smoke():
+    # one real new interpreter per entry point: `python -m altox`, as the console script runs it
+    ok = run_process("point", "--altitude", "5000m", "--json")
+    assert ok.returncode == 0, ok.stderr
+    assert json.loads(ok.stdout)["barometric_mmhg"] == pytest.approx(405.4, abs=0.1)   # ICAO 5000 m, as above
+    bad = run_process("point", "--altitude", "5000")
+    assert bad.returncode == 2 and bad.stderr.startswith("Error: ") and "Traceback" not in bad.stderr
+    plan = run_process("plan", str(Path(__file__).resolve().parents[1] / "profiles" / "trek-teskavor.yaml"), "--members", "0")
+    assert plan.returncode == 0 and "GUIDANCE ONLY" in plan.stdout
 
 
 def test_help_is_fast_path():

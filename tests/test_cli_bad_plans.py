@@ -6,6 +6,7 @@ import subprocess
 import sys
 
 import pytest
+from clirun import run_cli
 
 ENV = {**os.environ, "COLUMNS": "100", "NO_COLOR": "1"}
 
@@ -39,8 +40,7 @@ CASES = {
 
 
 def _run(*args):
-    return subprocess.run([sys.executable, "-m", "altox", *args], capture_output=True, text=True, env=ENV,
-                          timeout=60)
+    return run_cli(*args)
 
 
 @pytest.mark.parametrize("case", sorted(CASES), ids=sorted(CASES))

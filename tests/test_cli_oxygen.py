@@ -6,14 +6,14 @@ import subprocess
 import sys
 
 import pytest
+from clirun import run_cli
 
 ENV = {**os.environ, "COLUMNS": "80", "NO_COLOR": "1"}
 RUN = "import altox.cli_oxygen, altox.cli as c; c.main()"
 
 
 def run(*args):
-    return subprocess.run([sys.executable, "-c", RUN, *args], capture_output=True, text=True, env=ENV,
-                          timeout=120)
+    return run_cli(*args, env={"COLUMNS": "80"})
 
 
 def invoke(*args):

@@ -9,6 +9,7 @@ import sys
 from pathlib import Path
 
 import pytest
+from clirun import run_cli
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMOS = sorted((ROOT / "profiles").glob("*.yaml"))
@@ -16,8 +17,7 @@ ENV = {**os.environ, "COLUMNS": "80", "NO_COLOR": "1"}
 
 
 def run(*args):
-    return subprocess.run([sys.executable, "-m", "altox", *args], capture_output=True, text=True,
-                          env=ENV, timeout=120, cwd=ROOT)
+    return run_cli(*args, env={"COLUMNS": "80"}, cwd=ROOT)
 
 
 @pytest.mark.parametrize("demo", DEMOS, ids=[d.stem for d in DEMOS])

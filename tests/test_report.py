@@ -35,6 +35,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
+from clirun import run_cli as _run_in_process
 
 from altox.evaluate import evaluate_plan
 from altox.profile import load_plan, load_plan_text
@@ -51,8 +52,7 @@ CAUTION_EDGE = (0x7A, 0x4A, 0x00)
 
 
 def run_cli(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "altox", *args], capture_output=True, text=True, env=ENV,
-                          timeout=120, cwd=cwd or ROOT)
+    return _run_in_process(*args, env={"COLUMNS": "80"}, cwd=cwd or ROOT)
 
 
 # -- static checks -------------------------------------------------------------------------------

@@ -61,8 +61,9 @@ class Finding:
         ``"required-not-planned"``: the rule asks for oxygen (or, for an itinerary, a rest
         day) that the plan does not have; ``"limit-exceeded"``: the plan passes a limit.
     legs
-        Aviation: the leg indices concerned (for ``required-not-planned``, the legs where
-        the plan falls short).  Expedition: the day numbers concerned.
+        Aviation: the leg numbers concerned, as given to :func:`check_flight` (altox passes
+        1-based leg numbers, as in every table); for ``required-not-planned``, the legs where
+        the plan falls short.  Expedition: the day numbers concerned.
     """
 
     rule_set_id: str
@@ -161,7 +162,8 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
     cabin_pressure_altitude_ft : array of float
         Planned cabin pressure altitude of each sample [ft].
     leg : array of int
-        Leg index of each sample (used to report where a rule applies).
+        Leg number of each sample, reported as given (altox passes 1-based numbers, the
+        ones its tables show).
     oxygen_use : array of str
         Planned oxygen use in each sample: ``'none'``, ``'crew'`` or ``'all'``.
     rule_set : str, path or RuleSet
@@ -179,7 +181,7 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
     alt = _float_array(cabin_pressure_altitude_ft, "cabin_pressure_altitude_ft", n)
     legs = _float_array(leg, "leg", n)
     if np.any(legs != np.round(legs)):
-        raise AltoxError("leg: leg indices must be whole numbers", field="leg")
+        raise AltoxError("leg: leg numbers must be whole numbers", field="leg")
     legs = legs.astype(int)
     if np.any(dur < 0):
         raise AltoxError("duration_h: sample lengths must be >= 0", field="duration_h")
