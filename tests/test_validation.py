@@ -1,47 +1,83 @@
-"""The whole chain against published blood gases and saturations of lowlanders at altitude, acute and acclimatized.
+"""The whole chain against published blood gases and saturations of lowlanders at altitude.
 
-Sources are named per row in tests/reference_data/blood_gases_altitude.csv and spo2_altitude.csv
-(Grocott et al. N Engl J Med 2009;360:140-149; Sutton et al. J Appl Physiol 1988;64:1309-1321;
-Richalet et al. Adv Exp Med Biol 1999;474:297-317; West et al. Science 1984;223:784-788 and
-J Appl Physiol 1983;55:678-687; the 4,559 m arterial gases table; Botella de Maglia et al.
-Med Intensiva 2008;32:277-281; Cobb et al. Physiol Rep 2021;9:e14809). The tolerances and the
-reasons for the known disagreements live in docs/gen_validation.py, which also writes
-docs/validation.md from the same rows.
+Every case comes from tests/reference_data/blood_gases_altitude.csv and spo2_altitude.csv, where each
+published value has its source, its tolerance and the reason for it (fixed from the source before the
+comparison), the exposure the model is run at, and its role (calibration rows are checked too, but
+kept out of the bias table). docs/gen_validation.py builds the cases and docs/validation.md; the
+acceptance rule is in its docstring: no optimistic residual beyond its tolerance; a conservative one
+at most 3 saturation points, 4 mmHg or 0.04 pH beyond it, unless the row conflicts with a less
+oxygenated source.
 """
 
 import runpy
-import sys
 from pathlib import Path
 
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 GEN = runpy.run_path(str(ROOT / "docs" / "gen_validation.py"), run_name="gen_validation")
+CASES = GEN["all_cases"]()
 
-BG = GEN["blood_gas_cases"]()
-SPO2 = GEN["spo2_cases"]()
-KNOWN = GEN["KNOWN"]
+# Gaps not closed yet, each with its residual (model minus published) and tolerance.
+OPEN = {
+    "bg_grocott2009_8400m-PaO2": "residual +7.2 mmHg against tolerance 7: the model is optimistic here",
+    "bg_grocott2009_8400m_memory-SaO2": "residual +22.8 % against tolerance 19.1: the model is optimistic here",
+    "bg_oe3_summit_rest_grocott-PaCO2": "residual -4.0 mmHg against tolerance 3.25: the model is optimistic here",
+    "bg_oe3_summit_rest_grocott-pH": "residual +0.063  against tolerance 0.038: the model is optimistic here",
+    "bg_oe3_summit_rest_hal-SaO2": "residual +8.7 % against tolerance 4.3: the model is optimistic here",
+    "bg_4559_noAMS-AaDO2": "residual -4.4 mmHg against tolerance 4: the model is optimistic here",
+    "bg_4559_mildAMS-PaO2": "residual +5.1 mmHg against tolerance 4: the model is optimistic here",
+    "bg_4559_mildAMS-AaDO2": "residual -5.8 mmHg against tolerance 4: the model is optimistic here",
+    "bg_4559_modsevAMS-PaO2": "residual +8.8 mmHg against tolerance 4.5: the model is optimistic here",
+    "bg_4559_modsevAMS-AaDO2": "residual -9.0 mmHg against tolerance 4.8: the model is optimistic here",
+    "spo2_botella_7000-SpO2": "residual +9.7 % against tolerance 8.1: the model is optimistic here",
+    "spo2_tannheimer_7100-SpO2": "residual +14.6 % against tolerance 6.3: the model is optimistic here",
+    "spo2_nussbaumer_4559_night1-SpO2": "residual +8.5 % against tolerance 6.5: the model is optimistic here",
+    "spo2_nussbaumer_4559_night3-SpO2": "residual +7.0 % against tolerance 6.5: the model is optimistic here",
+}
 
 
-@pytest.mark.parametrize("case", BG, ids=[f"{c[0]['id']}-{c[1][2]}" for c in BG])
-def test_blood_gases(case):
-    row, q, days, published, model = case
-    tol = KNOWN[(row["id"], q[2])][1] if (row["id"], q[2]) in KNOWN else q[4]
-    assert abs(model - published) <= tol, (row["source"], q[2], published, model)
+def _marks(case):
+    if case.id in OPEN:
+        return [pytest.mark.xfail(strict=True, reason=OPEN[case.id])]
+    return []
 
 
-@pytest.mark.parametrize("case", SPO2, ids=[c[0]["id"] for c in SPO2])
-def test_spo2_within_model_range(case):
-    row, mean, sd, days, lo, hi = case
-    tol = GEN["spo2_tolerance"](sd)
-    assert lo - tol <= mean <= hi + tol, (row["source"], mean, lo, hi)
+@pytest.mark.parametrize("case", [pytest.param(c, marks=_marks(c), id=c.id) for c in CASES])
+def test_published_value(case):
+    assert case.passes, (f"{case.row['source']}: {case.label} published {case.published:g}, model "
+                         f"{case.model:.3f}, residual {case.residual:+.3f} ({case.verdict}, tolerance "
+                         f"{case.tolerance:g}, allowance {case.allowance:g}{', waived' if case.waived else ''})")
+
+
+def test_acceptance_rule_can_fail():
+    # the rule itself: an optimistic residual just beyond its tolerance fails, a conservative one within
+    # the allowance passes, and beyond it fails unless waived
+    case = next(c for c in CASES if c.label == "SpO2")
+    base = dict(vars(case))
+
+    def with_model(model, waived=False):
+        return GEN["Case"](**{**base, "model": model, "waived": waived})
+
+    tol = case.tolerance
+    assert not with_model(case.published + tol + 0.01).passes          # optimistic beyond
+    assert with_model(case.published - tol - 2.9).passes               # conservative within allowance
+    assert not with_model(case.published - tol - 3.1).passes           # conservative beyond allowance
+    assert with_model(case.published - tol - 3.1, waived=True).passes  # ... waived against a conflict
+
+
+def test_every_compared_value_has_a_tolerance_and_a_reason():
+    for case in CASES:
+        assert case.tolerance > 0 and case.row["tolerance_reason"], case.id
+        assert case.row["role"] in ("calibrate", "validate"), case.id
 
 
 def test_enough_independent_rows():
-    # acute and acclimatized, moderate and extreme altitude, must all be represented
-    states = {c[0]["state"] for c in BG}
-    assert {"acute", "acclimatized"} <= states
-    assert len(SPO2) >= 6
+    # acute, acclimatized and asleep, moderate and extreme altitude, must all be validated
+    validation = [c for c in CASES if not c.calibration]
+    assert {"acute", "acclimatized", "asleep"} <= {c.state for c in validation}
+    assert {c.band for c in validation} >= {"below 1,500 m", "1,500-3,499 m", "3,500-5,499 m",
+                                            "5,500-7,499 m", "7,500 m and above"}
 
 
 def test_validation_page_is_current():
