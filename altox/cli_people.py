@@ -97,7 +97,8 @@ def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
         lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
         table.add_row(str(r["day"]), f"{int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}", r["member"],
                       f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
-                      f"{e['central']:.0f} % ({e['low']:.0f}-{e['high']:.0f})",
+                      f"{e['central']:.0f} % ({e['low']:.0f}-{e['high']:.0f})"
+                      + ("" if e.get("model_valid", True) else " ?"),
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
                       lls, ", ".join(f["code"] for f in r["flags"]) or "-")
     out = [table if rows else Text("No observations in this plan.")]
@@ -158,7 +159,7 @@ def range_cmd(
 
         plan, _result, ranges = _plan_and_ranges(file, members, seed)
         if json_out:
-            people = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles")}
+            people = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
                       for p in ranges["people"]]
             typer.echo(json.dumps(_jsonable({"plan": plan.name, "members": members, "seed": seed,
                                              "percentiles": ranges["percentiles"], "people": people,
@@ -176,8 +177,9 @@ def range_cmd(
                 table.add_column(col)
             for leg in p["legs"]:
                 q = leg["sao2_pct_percentiles"]
+                mark = "" if leg.get("model_valid", True) else " ?"
                 table.add_row(str(leg["leg"]), leg["label"], "asleep" if leg["sleeping"] else "awake",
-                              f"{leg['central_sao2_pct']:.0f} %", f"{q[0]:.0f}-{q[-1]:.0f} %")
+                              f"{leg['central_sao2_pct']:.0f} %{mark}", f"{q[0]:.0f}-{q[-1]:.0f} %{mark}")
             console.print(table)
         for n in ranges["notes"]:
             console.print(n, style="dim", highlight=False)

@@ -197,9 +197,12 @@ def _po2_for_content(content_ml_dl, hb_g_dl, factor, upper_mmhg):
     (:func:`altox.blood.virtual_po2` of 1 mmHg).
     """
     shape = np.shape(content_ml_dl)
-    if not shape:
-        p, s = _po2_for_content(np.reshape(content_ml_dl, 1), hb_g_dl, factor, np.reshape(upper_mmhg, 1))
-        return p.reshape(()), s.reshape(())
+    if len(shape) != 1:
+        # the Newton below and its fallback work on flat element indices: one axis only
+        def flat(a):
+            return np.broadcast_to(np.asarray(a, dtype=float), shape).reshape(-1)
+        p, s = _po2_for_content(np.reshape(content_ml_dl, -1), flat(hb_g_dl), flat(factor), flat(upper_mmhg))
+        return p.reshape(shape), s.reshape(shape)
     cap = blood.HUEFNER_ML_PER_G * np.asarray(hb_g_dl, dtype=float)
     upper = np.maximum(np.asarray(upper_mmhg, dtype=float), 1e-6)
     s0 = np.clip((content_ml_dl - blood.O2_SOLUBILITY_ML_DL_MMHG * upper) / cap, 1e-6, 1 - 1e-9)

@@ -255,6 +255,14 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
                   **{k: v[None, k_index] for k, v in gas_kw.items()},
                   **{k: col(centrals, k) for k in centrals[0]})
     central = knots.interpolate(np.asarray(cres["sao2_pct"]))
+    # where the central solve leaves the model (no steady state, alveolar PO2 clamped at zero, inspired
+    # PO2 below the validated floor) the numbers are not a prediction: carried per sample and per leg
+    from .ventilation import model_coefficients
+
+    min_pio2 = float(model_coefficients()["validity"]["min_inspired_po2_mmhg"]["value"])
+    valid_k = (np.asarray(cres["solver_converged"]) & ~np.asarray(cres["alveolar_po2_clamped"])
+               & (np.asarray(cres["inspired_po2_mmhg"]) >= min_pio2))
+    valid = knots.interpolate_flag(valid_k, combine=np.logical_and)
     member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
     total = n_knots + n_samples
     sao2_k = np.empty((n_people, n, n_knots))
@@ -293,15 +301,22 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
             w = idx[np.argmin(central[j, idx])]
             legs.append({"leg": i + 1, "label": label, "time_h": float(tl.time_h[w]),
                          "sleeping": bool(tl.sleeping[w]), "central_sao2_pct": float(central[j, w]),
+                         "model_valid": bool(np.all(valid[j, idx])),
                          "sao2_pct_percentiles": [float(v) for v in out[:, j, w]],
                          "lowest_sao2_pct_percentiles": [float(v) for v in out[:, j, idx].min(axis=1)]})
         people_out.append({"name": names[j], "role": roles[j], "factors": dict(centrals[j]),
-                           "central_sao2_pct": central[j], "sao2_pct_percentiles": out[:, j, :], "legs": legs})
+                           "central_sao2_pct": central[j], "sao2_pct_percentiles": out[:, j, :],
+                           "model_valid": valid[j], "legs": legs})
     notes = [f"Expected range: {n:,} simulated people per person (seed {seed}), percentiles "
              f"{', '.join(f'{v:g}' for v in p)} of SaO2; spreads of the hypoxic ventilatory response, "
              "venous admixture, P50 and (when not given) hemoglobin, see docs/individual.md.",
              "Sleeping samples use a lower chemoreflex drive; values are on air (planned oxygen not applied).",
              "A population range for planning, not a diagnosis: people outside it exist."]
+    outside = sorted({leg["leg"] for person in people_out for leg in person["legs"] if not leg["model_valid"]})
+    if outside:
+        notes.insert(0, "OUTSIDE THE MODEL on leg(s) " + ", ".join(map(str, outside)) + ": breathing air there "
+                     f"gives an inspired PO2 below {min_pio2:.0f} mmHg or no resting steady state; the ranges "
+                     "shown there (marked ?) are not a prediction.")
     return {"n": int(n), "seed": seed, "percentiles": p.tolist(), "time_h": np.asarray(tl.time_h),
             "duration_h": np.asarray(tl.duration_h), "leg": np.asarray(tl.leg) + 1,
             "altitude_m": np.asarray(tl.altitude_m),

@@ -204,7 +204,8 @@ def review(plan, result=None, ranges=None) -> list[dict]:
             "spo2_pct": None if obs.spo2 is None else 100.0 * obs.spo2,
             "heart_rate_per_min": obs.heart_rate_per_min, "lake_louise": ll,
             "expected_sao2_pct": {"central": float(person["central_sao2_pct"][i]), "low": low, "high": high,
-                                  "percentiles": [float(p) for p in ranges["percentiles"]]},
+                                  "percentiles": [float(p) for p in ranges["percentiles"]],
+                                  "model_valid": bool(person["model_valid"][i]) if "model_valid" in person else True},
             "ascent_continues": ascent, "recent_gain_m": max(gain, 0.0), "flags": [], "note": obs.note,
         }
         low_spo2 = obs.spo2 is not None and 100.0 * obs.spo2 < low

@@ -253,8 +253,9 @@ def extras_renderables(result) -> list:
         for person in ranges["people"]:
             worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
             pct = worst["sao2_pct_percentiles"]
-            table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
-                          f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no")
+            mark = "" if worst.get("model_valid", True) else " " + OUTSIDE_MODEL
+            table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}{mark}",
+                          f"{pct[0]:.0f}-{pct[-1]:.0f}{mark}", "yes" if worst["sleeping"] else "no")
         out.append(table)
     if result.extras.get("fitness_to_fly"):
         from .cli_people import fitness_lines
@@ -295,7 +296,7 @@ def plan_to_dict(result, *, timeline: bool = False) -> dict:
         if key == "ranges" and not timeline:   # per-sample percentiles only with --timeline
             value = {k: v for k, v in value.items() if k not in ("time_h", "duration_h", "leg", "altitude_m",
                                                                  "sleeping")}
-            value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles")}
+            value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
                                for p in value["people"]]
         data[key] = value
     if timeline:

@@ -286,7 +286,8 @@ def _people_extras(result) -> list[str]:
         for person in ranges["people"]:
             worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
             pct = worst["sao2_pct_percentiles"]
-            rows.append(([_e(person["name"]), str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
+            mark = "" if worst.get("model_valid", True) else " (outside the model)"
+            rows.append(([_e(person["name"]), str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}{mark}",
                           f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no"], ""))
         parts.append(_table(f"Expected SaO2 at each person's worst leg: central and {lo_p:g}th to {hi_p:g}th "
                             f"percentile of {ranges['n']} simulated people",
