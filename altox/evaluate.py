@@ -78,16 +78,42 @@ def _rule_sets(plan):
     return sets
 
 
-def _findings(plan, tl, rule_sets):
-    from .rules.checker import check_flight, check_itinerary
-    from .timeline import OXYGEN_NAMES
+#: cabin altitudes [ft] whose time above is summed for a flight's summary
+SUMMARY_CABIN_FT = (10000.0, 12500.0, 14000.0, 15000.0)
 
-    findings = []
+
+def guidance_findings(plan, rule_sets=None):
+    """Findings of a plan against its rule sets, and (flights) the exact time above each cabin figure.
+
+    Flights are checked on :func:`altox.timeline.cabin_crossings`: the profile cut at the exact
+    times the cabin crosses every threshold of the rule sets, so each verdict and each minute
+    count is independent of ``sample_every``.  Expeditions are checked night by night.
+
+    Returns
+    -------
+    (findings, cabin_hours)
+        ``cabin_hours`` maps each of :data:`SUMMARY_CABIN_FT` to the hours with the cabin
+        strictly above it (empty for an expedition).
+    """
+    from .rules.checker import check_flight, check_itinerary, hours_above
+    from .timeline import OXYGEN_NAMES, cabin_crossings
+
+    rule_sets = _rule_sets(plan) if rule_sets is None else rule_sets
+    findings, cabin_hours = [], {}
     if plan.kind == "flight":
-        use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in tl.oxygen])
+        figures = list(SUMMARY_CABIN_FT)
         for rs in rule_sets:
             if rs.kind == "aviation":
-                findings += check_flight(tl.time_h, tl.duration_h, tl.cabin_pressure_altitude_ft, tl.leg + 1, use, rs)
+                for th in rs.thresholds:
+                    figures += [th.lower_ft] + ([th.top_ft] if th.top_ft is not None else [])
+        pieces = cabin_crossings(plan, figures)
+        use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in pieces.oxygen])
+        for rs in rule_sets:
+            if rs.kind == "aviation":
+                findings += check_flight(pieces.time_h, pieces.duration_h, pieces.cabin_pressure_altitude_ft,
+                                         pieces.leg + 1, use, rs)
+        cabin_hours = {x: hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, x)
+                       for x in SUMMARY_CABIN_FT}
     else:
         day = np.array([d.day for d in plan.days])
         sleep = np.array([d.sleep_m for d in plan.days])
@@ -95,7 +121,7 @@ def _findings(plan, tl, rule_sets):
         for rs in rule_sets:
             if rs.kind == "expedition":
                 findings += check_itinerary(day, sleep, high, plan.start_altitude_m, rs)
-    return findings
+    return findings, cabin_hours
 
 
 def evaluate_plan(plan, *, people_override=None) -> PlanResult:
@@ -141,7 +167,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     levels = sorted(plan.saturation_levels, reverse=True)
     ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
     below = {lvl: np.cumsum(dt * (ref["sao2_pct"] < 100 * lvl)) for lvl in levels}
-    findings = _findings(plan, tl, rule_sets := _rule_sets(plan))
+    findings, cabin_hours = guidance_findings(plan, rule_sets := _rule_sets(plan))
 
     legs = []
     if plan.kind == "flight":
@@ -224,9 +250,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     for lvl in levels:
         summary[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][-1])
     if plan.kind == "flight":
-        for threshold_ft in (10000.0, 12500.0, 14000.0, 15000.0):
-            summary[f"hours_cabin_above_{int(threshold_ft)}_ft"] = float(
-                np.sum(dt * (tl.cabin_pressure_altitude_ft > threshold_ft)))
+        for threshold_ft, hours in cabin_hours.items():
+            summary[f"hours_cabin_above_{int(threshold_ft)}_ft"] = hours
     samples = {"time_h": tl.time_h, "duration_h": dt, "leg": tl.leg + 1, "altitude_m": tl.altitude_m,
                "aircraft_altitude_m": tl.aircraft_altitude_m, "sleeping": tl.sleeping,
                "oxygen_code": tl.oxygen, "cabin_pressure_altitude_ft": tl.cabin_pressure_altitude_ft,

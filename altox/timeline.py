@@ -54,7 +54,7 @@ from .atmosphere import (altitude_for_pressure, barometric_pressure, pressure_al
 from .profile import ExpeditionPlan, FlightPlan
 from .units import M_PER_FT
 
-__all__ = ["Timeline", "expand", "OXYGEN_NONE", "OXYGEN_CREW", "OXYGEN_PATIENT", "OXYGEN_ALL",
+__all__ = ["Timeline", "expand", "cabin_crossings", "OXYGEN_NONE", "OXYGEN_CREW", "OXYGEN_PATIENT", "OXYGEN_ALL",
            "OXYGEN_CODES", "OXYGEN_NAMES", "NIGHT_START_H", "NIGHT_END_H", "ARRIVAL_H"]
 
 #: Oxygen codes in :attr:`Timeline.oxygen`: who breathes supplemental oxygen in the sample.
@@ -259,15 +259,45 @@ def _expand_expedition(plan: ExpeditionPlan) -> Timeline:
     )
 
 
-def _expand_flight(plan: FlightPlan) -> Timeline:
-    legs = plan.legs
-    ends = plan.leg_altitudes_m()
-    durations = np.array([leg.duration_h for leg in legs], dtype=float)
+def _flight_leg_times(plan: FlightPlan):
+    """(start_h, end_h, durations_h) of every leg; the last end is exactly the plan's length."""
+    durations = np.array([leg.duration_h for leg in plan.legs], dtype=float)
     leg_end_h = np.cumsum(durations)
     leg_start_h = leg_end_h - durations
-    total_h = float(leg_end_h[-1])
-    leg_end_h[-1] = total_h
-    bounds = _sample_bounds(leg_end_h, total_h, plan.sample_every_h)
+    leg_end_h[-1] = float(leg_end_h[-1])
+    return leg_start_h, leg_end_h, durations
+
+
+def _cabin_mmhg(plan: FlightPlan, p_out: np.ndarray, k: np.ndarray) -> np.ndarray:
+    """Cabin pressure [mmHg] for outside pressures ``p_out`` on legs ``k`` (the model above)."""
+    legs = plan.legs
+    ac = plan.aircraft
+    p_cabin = p_out.copy()
+    if not ac.pressurized:
+        return p_cabin
+    stated_ft = np.array([np.nan if leg.cabin_pressure_altitude_m is None
+                          else leg.cabin_pressure_altitude_m / M_PER_FT for leg in legs])[k]
+    has_stated = ~np.isnan(stated_ft)
+    if has_stated.any():
+        p_stated = np.asarray(pressure_altitude_ft_to_mmhg(stated_ft[has_stated]), dtype=float)
+        p_cabin[has_stated] = np.maximum(p_stated, p_out[has_stated])
+    sched = ~has_stated
+    if sched.any():
+        if ac.max_differential_mmhg is None:  # pragma: no cover - the plan validator forbids it
+            raise ValueError("pressurized aircraft without max_differential on a leg without cabin")
+        p_max_cab = float(pressure_altitude_ft_to_mmhg(ac.max_cabin_altitude_ft))
+        p_cabin[sched] = np.minimum(np.maximum(p_out[sched], p_max_cab),
+                                    p_out[sched] + ac.max_differential_mmhg)
+    ground = np.array([leg.phase == "ground" for leg in legs])[k]
+    p_cabin[ground] = p_out[ground]
+    return p_cabin
+
+
+def _flight_on(plan: FlightPlan, bounds: np.ndarray) -> Timeline:
+    """The flight on the intervals between ``bounds`` [h], each taken at its mid-point."""
+    legs = plan.legs
+    ends = plan.leg_altitudes_m()
+    leg_start_h, leg_end_h, durations = _flight_leg_times(plan)
     time_h = bounds[:-1]
     duration_h = np.diff(bounds)
     mid = time_h + duration_h / 2.0
@@ -278,27 +308,7 @@ def _expand_flight(plan: FlightPlan) -> Timeline:
     frac = np.clip((mid - leg_start_h[k]) / durations[k], 0.0, 1.0)
     aircraft_pa_ft = (a0 + (a1 - a0) * frac) / M_PER_FT
     p_out = np.asarray(pressure_altitude_ft_to_mmhg(aircraft_pa_ft), dtype=float)
-
-    ac = plan.aircraft
-    ground = np.array([leg.phase == "ground" for leg in legs])[k]
-    if not ac.pressurized:
-        p_cabin = p_out.copy()
-    else:
-        p_cabin = p_out.copy()
-        stated_ft = np.array([np.nan if leg.cabin_pressure_altitude_m is None
-                              else leg.cabin_pressure_altitude_m / M_PER_FT for leg in legs])[k]
-        has_stated = ~np.isnan(stated_ft)
-        if has_stated.any():
-            p_stated = np.asarray(pressure_altitude_ft_to_mmhg(stated_ft[has_stated]), dtype=float)
-            p_cabin[has_stated] = np.maximum(p_stated, p_out[has_stated])
-        sched = ~has_stated
-        if sched.any():
-            if ac.max_differential_mmhg is None:  # pragma: no cover - the plan validator forbids it
-                raise ValueError("pressurized aircraft without max_differential on a leg without cabin")
-            p_max_cab = float(pressure_altitude_ft_to_mmhg(ac.max_cabin_altitude_ft))
-            p_cabin[sched] = np.minimum(np.maximum(p_out[sched], p_max_cab),
-                                        p_out[sched] + ac.max_differential_mmhg)
-        p_cabin[ground] = p_out[ground]
+    p_cabin = _cabin_mmhg(plan, p_out, k)
 
     labels = []
     for i, (leg, (s, e)) in enumerate(zip(legs, ends)):
@@ -324,6 +334,60 @@ def _expand_flight(plan: FlightPlan) -> Timeline:
         cabin_pressure_altitude_ft=cabin_ft,
         leg_labels=labels,
     )
+
+
+def _expand_flight(plan: FlightPlan) -> Timeline:
+    _, leg_end_h, _ = _flight_leg_times(plan)
+    return _flight_on(plan, _sample_bounds(leg_end_h, float(leg_end_h[-1]), plan.sample_every_h))
+
+
+def cabin_crossings(plan: FlightPlan, thresholds_ft) -> Timeline:
+    """The flight cut at every leg end and every exact time its cabin crosses a threshold.
+
+    Within a leg the aircraft's pressure altitude changes linearly with time, and the cabin
+    pressure altitude is a non-decreasing function of it (the cabin model above), so the
+    cabin crosses a threshold ``x`` only where the aircraft is at ``x`` itself (cabin at the
+    aircraft's altitude, or a stated cabin) or, on the differential-limited part of a
+    pressurization schedule, where the outside pressure is ``P(x) - max_differential``.  Those
+    times are found in closed form; each piece between them lies wholly above or wholly at
+    or below every threshold, so the time above a threshold summed over the pieces is exact
+    and does not depend on ``sample_every``.
+
+    Parameters
+    ----------
+    plan : FlightPlan
+    thresholds_ft : sequence of float
+        Cabin pressure altitudes [ft] whose crossings cut the flight.
+
+    Returns
+    -------
+    Timeline
+        One entry per piece, each taken at its mid-point (independent of ``sample_every``).
+    """
+    if not isinstance(plan, FlightPlan):
+        raise TypeError(f"cabin_crossings() takes a FlightPlan, not {type(plan).__name__}")
+    leg_start_h, leg_end_h, durations = _flight_leg_times(plan)
+    ends = np.asarray(plan.leg_altitudes_m(), dtype=float) / M_PER_FT   # (legs, 2) [ft]
+    x_ft = np.unique(np.asarray(list(thresholds_ft), dtype=float))
+    aircraft_ft = [x_ft]
+    ac = plan.aircraft
+    if ac.pressurized and ac.max_differential_mmhg is not None and x_ft.size:
+        p_x = np.asarray(pressure_altitude_ft_to_mmhg(x_ft), dtype=float) - ac.max_differential_mmhg
+        if np.any(p_x > 0):
+            aircraft_ft.append(np.asarray(pressure_altitude_ft(p_x[p_x > 0]), dtype=float))
+    cand = np.concatenate(aircraft_ft)
+    a0, a1 = ends[:, 0:1], ends[:, 1:2]
+    moving = (a1 != a0)[:, 0]
+    cuts = [np.concatenate([[0.0], leg_end_h])]
+    if cand.size and moving.any():
+        frac = (cand[None, :] - a0[moving]) / (a1[moving] - a0[moving])
+        inside = (frac > 0.0) & (frac < 1.0)
+        t = leg_start_h[moving][:, None] + frac * durations[moving][:, None]
+        cuts.append(t[inside])
+    bounds = np.unique(np.concatenate(cuts))
+    bounds = bounds[np.concatenate([[True], np.diff(bounds) > 1e-12])]
+    bounds[-1] = float(leg_end_h[-1])
+    return _flight_on(plan, bounds)
 
 
 def expand(plan) -> Timeline:

@@ -119,6 +119,10 @@ def _fmt_list(values) -> str:
     return ", ".join(values[:-1]) + " and " + values[-1]
 
 
+def _on_legs(legs) -> str:
+    return ("on leg " if len(legs) == 1 else "on legs ") + _fmt_list(legs)
+
+
 def _band_words(th: Threshold) -> str:
     if th.quantity == "cabin_pressure":
         if th.band_top is None:
@@ -139,6 +143,25 @@ def _finding(rs: RuleSet, th: Threshold, legs, status: str, message: str) -> Fin
     return Finding(rule_set_id=rs.id, threshold_id=th.id, section=th.section,
                    citation=th.citation or rs.citation, legs=sorted({int(x) for x in legs}),
                    applies_to=th.applies_to, status=status, message=message, basis=th.basis)
+
+
+def in_band(cabin_pressure_altitude_ft, lower_ft: float, top_ft: float | None = None) -> np.ndarray:
+    """Samples strictly above ``lower_ft`` and, with a top, at or below ``top_ft`` [ft].
+
+    A cabin held at a figure (8,000.000000001 ft after unit round trips) is at it, not above
+    it: the comparison allows 0.01 ft.
+    """
+    alt = np.asarray(cabin_pressure_altitude_ft, dtype=float)
+    mask = alt > lower_ft + _EPS_FT
+    if top_ft is not None:
+        mask &= alt <= top_ft + _EPS_FT
+    return mask
+
+
+def hours_above(duration_h, cabin_pressure_altitude_ft, threshold_ft: float) -> float:
+    """Hours with the cabin strictly above ``threshold_ft`` [ft] (the sum over the samples)."""
+    return float(np.sum(np.asarray(duration_h, dtype=float)
+                        * in_band(cabin_pressure_altitude_ft, threshold_ft)))
 
 
 def _past_duration(in_band: np.ndarray, duration_h: np.ndarray, limit_h: float | None) -> np.ndarray:
@@ -202,15 +225,13 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
     findings: list[Finding] = []
     for th in rs.thresholds:
         lower, top, limit_h = th.lower_ft, th.top_ft, th.duration_h
-        in_band = alt > lower + _EPS_FT
-        if top is not None:
-            in_band &= alt <= top + _EPS_FT
-        if not in_band.any():
+        band = in_band(alt, lower, top)
+        if not band.any():
             continue
-        hit = _past_duration(in_band, dur, limit_h)
+        hit = _past_duration(band, dur, limit_h)
         if not hit.any():
             continue
-        band_h = float(dur[in_band].sum())
+        band_h = float(dur[band].sum())
         cite = f"{rs.label} {th.section}"
         where_legs = sorted(set(legs[hit].tolist()))
         if th.check == "limit":
@@ -218,7 +239,7 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
             over = (f"for {_fmt_min(band_h)}, more than the {_fmt_min(limit_h)} allowed"
                     if limit_h is not None else f"for {_fmt_min(band_h)}")
             msg = (f"Guidance from {cite} ({th.requirement}): the planned cabin altitude is above "
-                   f"{th.value}{cond} {over}, on legs {_fmt_list(where_legs)}.")
+                   f"{th.value}{cond} {over}, {_on_legs(where_legs)}.")
             findings.append(_finding(rs, th, where_legs, "limit-exceeded", msg))
             continue
         covered = np.isin(use, list(_COVERED_BY[th.applies_to]))
@@ -229,11 +250,11 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
         if short.any():
             short_legs = sorted(set(legs[short].tolist()))
             msg = (f"Guidance from {cite} ({th.requirement}): the plan has {span}, and its oxygen use "
-                   f"does not cover {_who(th.applies_to)} there, on legs {_fmt_list(short_legs)}.")
+                   f"does not cover {_who(th.applies_to)} there, {_on_legs(short_legs)}.")
             findings.append(_finding(rs, th, short_legs, "required-not-planned", msg))
         else:
             msg = (f"Guidance from {cite} ({th.requirement}): the plan has {span}, and its oxygen use "
-                   f"covers {_who(th.applies_to)} there, on legs {_fmt_list(where_legs)}.")
+                   f"covers {_who(th.applies_to)} there, {_on_legs(where_legs)}.")
             findings.append(_finding(rs, th, where_legs, "required-planned", msg))
     return findings
 
