@@ -574,8 +574,9 @@ def repair_plan(path, *, goal: str | Goal | None = None, keep: str = "all", max_
                          field="--keep", value=keep, expected=", ".join(KEEP_CHOICES))
     goal = parse_goal(goal) if not isinstance(goal, Goal) else goal
     if plan.kind == "flight":
-        raise AltoxError(f"{path}: repairing a flight profile is not available yet; expected an expedition "
-                         "plan (kind: expedition).", field="kind", value="flight", expected="expedition")
+        from .repair_flight import repair_flight
+
+        return repair_flight(plan, _load_text(path), goal=goal, progress=progress)
     return _repair_expedition(plan, _load_text(path), goal=goal, keep=keep,
                               max_days=max_days if max_days is not None else plan.max_days,
                               allow_oxygen=allow_oxygen, members=members, seed=seed,

@@ -265,3 +265,71 @@ def test_impossible_goal_says_why(tmp_path, goal, options, needle):
     if options:   # the command says the same, with its own exit status
         r = runner.invoke(app, ["fix", str(path), "--goal", goal, "--members", "20", "--no-oxygen"])
         assert r.exit_code == 3 and "No repair" in r.output and "Ada" in r.output
+
+
+# -- flights ------------------------------------------------------------------------------------
+FLIGHT = """kind: flight
+name: small crossing   # a comment to keep
+rules: [us-14cfr-91]
+sample_every: 5 min
+aircraft: {type: invented single, pressurized: false}
+departure_elevation: 2,000 ft
+aboard:
+  - {name: P, role: crew, age: 50}
+  - {name: Q, role: passenger, age: 30}
+legs:
+  - {phase: climb, duration: 15 min, altitude: "14,500 ft"}
+  - {phase: cruise, duration: 40 min}
+  - {phase: descent, duration: 15 min, altitude: "2,000 ft"}
+"""
+
+
+def test_flight_demo_breaking_91_211a_is_repaired(tmp_path):
+    src = tmp_path / "piston.yaml"
+    shutil.copy(ROOT / "profiles" / "piston-ridge-crossing.yaml", src)
+    digest = hashlib.sha256(src.read_bytes()).hexdigest()
+    before = _broken(load_plan(src))
+    assert any(f.section.startswith("91.211(a)") for f in before)
+    out = tmp_path / "fixed.yaml"
+    r = runner.invoke(app, ["fix", str(src), "--write", str(out)])
+    assert r.exit_code == 0, r.output
+    assert "leg " in r.output
+    assert hashlib.sha256(src.read_bytes()).hexdigest() == digest
+    assert _broken(load_plan(out)) == []
+    assert "# An unpressurized single-engine" in out.read_text(encoding="utf-8")
+
+
+def test_flight_repair_is_minimal_brute_force_agrees(tmp_path):
+    from altox import repair_flight as rf
+    from altox.evaluate import _rule_sets, guidance_findings
+    from altox.profile import plan_from_data
+    from altox.yamlload import parse_yaml
+
+    path = tmp_path / "f.yaml"
+    path.write_text(FLIGHT, encoding="utf-8")
+    plan = load_plan(path)
+    result = rp.repair_plan(path)
+    assert result.found and _broken(result.plan) == []
+    # every assignment of an option (or none) to every leg, all at once
+    rule_sets = [rs for rs in _rule_sets(plan) if rs.kind == "aviation"]
+    thresholds = rf._thresholds_ft(rule_sets)
+    alts0, cabin0 = rf._flown_ft(plan)
+    per_leg = [[None] + rf._leg_options(plan, i, thresholds, min(thresholds), cabin0) for i in range(len(plan.legs))]
+    data, _ = parse_yaml(FLIGHT)
+    best = None
+    for combo in itertools.product(*per_leg):
+        legs = [dict(x) for x in data["legs"]]
+        for i, option in enumerate(combo):
+            if option:
+                rf._apply(legs, i, option)
+        try:
+            cand = plan_from_data({**data, "legs": legs})
+        except Exception:
+            continue
+        if [f for f in guidance_findings(cand, rule_sets)[0] if f.status in rp.BROKEN]:
+            continue
+        cost = rf._cost(plan, alts0, cabin0, cand)
+        best = cost if best is None or cost < best else best
+    assert best is not None
+    assert rf._cost(plan, alts0, cabin0, result.plan) == best
+    assert "# a comment to keep" in result.text
