@@ -13,6 +13,40 @@ import typer
 from .cli import app, run_guarded
 
 
+#: seconds before a progress bar appears
+PROGRESS_AFTER_S = 1.0
+
+
+def _delayed_progress():
+    """(callback, close): a rich bar on a terminal, shown only once the work has taken a second."""
+    import sys
+    import time
+
+    if not sys.stderr.isatty():
+        return None, lambda: None
+    start = time.monotonic()
+    state: dict = {}
+
+    def update(done, total):
+        if "bar" not in state:
+            if time.monotonic() - start < PROGRESS_AFTER_S:
+                return
+            from rich.console import Console
+            from rich.progress import BarColumn, Progress, SpinnerColumn, TextColumn
+
+            bar = Progress(SpinnerColumn(), TextColumn("searching for a repair"), BarColumn(),
+                           console=Console(stderr=True), transient=True)
+            bar.start()
+            state.update(bar=bar, task=bar.add_task("repair", total=1.0))
+        state["bar"].update(state["task"], completed=min(1.0, done / max(total, 1)))
+
+    def close():
+        if "bar" in state:
+            state["bar"].stop()
+
+    return update, close
+
+
 @app.command()
 def fix(
     file: str = typer.Argument(..., help="The plan file (YAML); it is only read."),
@@ -47,9 +81,7 @@ def fix(
             raise AltoxError(f"--members: {members} is outside the accepted range; expected 10 to 100,000.",
                              field="--members")
         original = load_plan(file)
-        from .cli_people import _progress_callback
-
-        update, close = _progress_callback()
+        update, close = _delayed_progress()
         try:
             result = rp.repair_plan(file, goal=goal, keep=keep, max_days=max_days, allow_oxygen=not no_oxygen,
                                     members=members, seed=seed, progress=update)

@@ -47,8 +47,11 @@ def _leg_options(plan, i, thresholds_ft, lowest_ft, cabin_ft_max):
     if leg.phase == "ground" or max(start_ft, end_ft) <= lowest_ft + 0.01:   # the cabin is never above the aircraft
         return []
     shapes = [{}]
-    if not plan.aircraft.pressurized and leg.phase == "climb":
-        for t in thresholds_ft:
+    if leg.phase == "climb":
+        ends = set(thresholds_ft)
+        if plan.aircraft.pressurized and plan.aircraft.max_differential_mmhg is not None:
+            ends |= set(_aircraft_ft_for_cabins(plan, thresholds_ft))
+        for t in sorted(ends):
             if start_ft + 1.0 < t < end_ft - 1.0:
                 shapes.append({"altitude_ft": t})
         if i > 0 and plan.legs[i - 1].phase != "ground":
@@ -68,17 +71,49 @@ def _leg_options(plan, i, thresholds_ft, lowest_ft, cabin_ft_max):
     return out
 
 
-def _apply(legs_data, i, option):
-    leg = legs_data[i]
+def _aircraft_ft_for_cabins(plan, cabins_ft):
+    """Aircraft pressure altitudes [ft] at which the cabin, at the maximum differential, is at each of ``cabins_ft``.
+
+    Rounded down to a whole 1,000 ft (a flight level or an altitude a pilot can fly).
+    """
+    from .atmosphere import pressure_altitude_ft, pressure_altitude_ft_to_mmhg
+
+    out = []
+    for c in cabins_ft:
+        p_out = float(pressure_altitude_ft_to_mmhg(c)) - plan.aircraft.max_differential_mmhg
+        if p_out > 50.0:
+            out.append(1000.0 * (float(pressure_altitude_ft(p_out)) // 1000.0))
+    return out
+
+
+def _apply(legs, i, option, *, altitudes_ft=None):
+    """Apply an option to leg ``i`` of a list of leg mappings (plain or round-trip); legs after a changed
+    climb that state their altitude are given the new one."""
+    leg = legs[i]
+    new_end = None
     if "oxygen" in option:
-        leg["oxygen"] = option["oxygen"]
+        if "oxygen" in leg or not hasattr(leg, "insert"):
+            leg["oxygen"] = option["oxygen"]
+        else:
+            _put_after(leg, "oxygen", option["oxygen"], "altitude" if "altitude" in leg else "duration")
     if "altitude_ft" in option:
-        leg["altitude"] = _ft(option["altitude_ft"])
+        leg["altitude"] = new_end = _ft(option["altitude_ft"])
     if option.get("cruise"):
         leg["phase"] = "cruise"
-        leg.pop("altitude", None)
+        if "altitude" in leg:
+            del leg["altitude"]
+        new_end = _ft(altitudes_ft[i][0]) if altitudes_ft is not None else None
     if "cabin_ft" in option:
-        leg["cabin"] = _ft(option["cabin_ft"])
+        if "cabin" in leg or not hasattr(leg, "insert"):
+            leg["cabin"] = _ft(option["cabin_ft"])
+        else:
+            _put_after(leg, "cabin", _ft(option["cabin_ft"]), "altitude" if "altitude" in leg else "duration")
+    if new_end is not None:
+        for later in legs[i + 1:]:
+            if later.get("phase") in ("climb", "descent"):
+                break
+            if "altitude" in later:
+                later["altitude"] = new_end
 
 
 def _flown_ft(plan):
@@ -151,7 +186,7 @@ def repair_flight(plan, text, *, goal=None, progress=None) -> Repair:
     def judge(choice):
         legs_data = copy.deepcopy(data["legs"])
         for i, option in choice:
-            _apply(legs_data, i, option)
+            _apply(legs_data, i, option, altitudes_ft=alts0)
         cand_data = dict(data)
         cand_data["legs"] = legs_data
         try:
@@ -198,28 +233,18 @@ def repair_flight(plan, text, *, goal=None, progress=None) -> Repair:
     else:
         (choice, cand), found, why = best, True, []
     changed, total_ft, _ = _cost(plan, alts0, cabin0, cand)
-    return Repair("flight", found, cand, _flight_text(text, choice), _flight_sentences(plan, choice),
+    return Repair("flight", found, cand, _flight_text(text, choice, alts0), _flight_sentences(plan, choice),
                   changed_legs=changed, altitude_change_ft=total_ft, reasons=why, states=states,
                   notes=["altox does not know terrain, minimum altitudes, airspace or weather: a lower "
                          "climb or cruise must be checked against them before it is flown."]
                   if any(set(o) - {"oxygen"} for _, o in choice) else [])
 
 
-def _flight_text(text, choice) -> str:
+def _flight_text(text, choice, altitudes_ft) -> str:
     y = _round_trip()
     doc = y.load(text)
     for i, option in choice:
-        leg = doc["legs"][i]
-        if "oxygen" in option:
-            _put_after(leg, "oxygen", option["oxygen"], "altitude" if "altitude" in leg else "duration")
-        if "altitude_ft" in option:
-            leg["altitude"] = _ft(option["altitude_ft"])
-        if option.get("cruise"):
-            leg["phase"] = "cruise"
-            if "altitude" in leg:
-                del leg["altitude"]
-        if "cabin_ft" in option:
-            _put_after(leg, "cabin", _ft(option["cabin_ft"]), "altitude" if "altitude" in leg else "duration")
+        _apply(doc["legs"], i, option, altitudes_ft=altitudes_ft)
     return _dump(y, doc)
 
 

@@ -321,7 +321,7 @@ def test_flight_repair_is_minimal_brute_force_agrees(tmp_path):
         legs = [dict(x) for x in data["legs"]]
         for i, option in enumerate(combo):
             if option:
-                rf._apply(legs, i, option)
+                rf._apply(legs, i, option, altitudes_ft=alts0)
         try:
             cand = plan_from_data({**data, "legs": legs})
         except Exception:
@@ -333,3 +333,29 @@ def test_flight_repair_is_minimal_brute_force_agrees(tmp_path):
     assert best is not None
     assert rf._cost(plan, alts0, cabin0, result.plan) == best
     assert "# a comment to keep" in result.text
+
+
+def test_pressurized_flight_over_its_cabin_limit_gets_a_lower_cruise(tmp_path):
+    # the differential runs out above about FL300: the cabin passes 8,000 ft; oxygen cannot fix a limit
+    text = """kind: flight
+name: small jet
+rules: [us-14cfr-25]
+sample_every: 5 min
+aircraft: {type: invented jet, pressurized: true, max_differential: 6.0 psi, max_cabin_altitude: "8,000 ft"}
+departure_elevation: 500 ft
+aboard:
+  - {name: P, role: crew, age: 50}
+legs:
+  - {phase: climb, duration: 20 min, altitude: FL370}
+  - {phase: cruise, duration: 40 min, altitude: FL370}
+  - {phase: descent, duration: 20 min, altitude: 500 ft}
+"""
+    path = tmp_path / "jet.yaml"
+    path.write_text(text, encoding="utf-8")
+    assert _broken(load_plan(path))
+    result = rp.repair_plan(path)
+    assert result.found, result.reasons
+    assert _broken(result.plan) == []
+    assert result.altitude_change_ft > 0
+    assert result.plan.legs[0].pressure_altitude_m < load_plan(path).legs[0].pressure_altitude_m
+    assert any("terrain" in n for n in result.notes)
