@@ -359,3 +359,16 @@ legs:
     assert result.altitude_change_ft > 0
     assert result.plan.legs[0].pressure_altitude_m < load_plan(path).legs[0].pressure_altitude_m
     assert any("terrain" in n for n in result.notes)
+
+
+def test_json_output_has_the_summary_and_the_caution():
+    import json
+
+    r = runner.invoke(app, ["fix", str(ROOT / "profiles" / "trek-teskavor.yaml"), "--json"])
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    assert data["found"] and data["added_days"] >= 1 and data["changes"]
+    assert data["summary"]["before"]["not_met"] and data["summary"]["after"]["not_met"] == []
+    assert data["summary"]["after"]["days"] == data["summary"]["before"]["days"] + data["added_days"]
+    assert "GUIDANCE ONLY" in data["caution"]
+    assert load_plan_text(data["plan_yaml"]).kind == "expedition"
