@@ -381,6 +381,8 @@ def _expedition_text(original_text: str, plan, nights) -> tuple[str, dict]:
             item["day"] = k
             if night.kind == "lower":
                 item["sleep"] = _q(_fmt_m(night.sleep_m), flow)
+                if "pressure" in item:       # measured at the planned camp, not at the lower one
+                    del item["pressure"]
                 if night.high_m is not None and (plan.days[night.source].high_m is None
                                                  or night.high_m > plan.days[night.source].high_m):
                     _put_after(item, "high", _q(_fmt_m(night.high_m), flow), "sleep")
