@@ -6,6 +6,7 @@ from typing import Optional
 
 import typer
 
+from .defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 from .errors import AltoxError, ProfileError
 
 app = typer.Typer(
@@ -28,7 +29,7 @@ def run_guarded(func):
     """Call ``func``; named errors become one message and exit 2, bugs a short note and exit 1."""
     try:
         return func()
-    except typer.Exit:
+    except (typer.Exit, BrokenPipeError):
         raise
     except ProfileError as exc:
         where = exc.location()
@@ -46,6 +47,20 @@ def run_guarded(func):
 @app.callback()
 def _root(debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors.")):
     _DEBUG["on"] = debug
+
+
+#: largest --seed accepted (numpy's generators take any non-negative integer; 2**32 - 1 keeps it typable)
+MAX_SEED = 2**32 - 1
+
+
+def check_seed(seed) -> None:
+    """Refuse a --seed outside 0 to :data:`MAX_SEED` (numpy refuses negative seeds)."""
+    from .errors import OutOfRangeError
+
+    if seed is not None and not 0 <= seed <= MAX_SEED:
+        raise OutOfRangeError(f"--seed: {seed} is outside the accepted range; expected a whole number "
+                              f"from 0 to {MAX_SEED:,}.", field="--seed", value=seed,
+                              expected=f"0 to {MAX_SEED:,}")
 
 
 def _parse_number(text, option: str, lo: float, hi: float, unit: str = ""):
@@ -121,7 +136,7 @@ def point(
         if json_out:
             typer.echo(render.to_json(result))
             return
-        from rich.console import Console
+        from .terminal import console as Console
 
         exposure = ("acute exposure (first hours)" if opts["days"] == 0
                     else f"{opts['days']:g} days at this altitude")
@@ -140,7 +155,7 @@ def point(
     run_guarded(body)
 
 
-def _load_and_evaluate(path: str, rules: list[str], members: int = 0, seed: Optional[int] = None):
+def _load_and_evaluate(path: str, rules: list[str], members: Optional[int] = None, seed: Optional[int] = None):
     """Load a plan, apply --rules, evaluate it and attach the reviews; returns (plan, result)."""
     from .evaluate import evaluate_plan, plan_extras
     from .profile import load_plan
@@ -182,9 +197,11 @@ def plan(
     report: Optional[str] = typer.Option(None, "--report", help="Also write a self-contained HTML report "
                                                                  "(.html) to share."),
     force: bool = typer.Option(False, "--force", help="Replace an existing --chart or --report file."),
-    members: int = typer.Option(200, "--members", help="Simulated people per person for the expected "
-                                                       "SaO2 range (0 skips it)."),
-    seed: Optional[int] = typer.Option(None, "--seed", help="Seed of the expected range (default fixed)."),
+    members: int = typer.Option(ENSEMBLE_MEMBERS, "--members", help="Simulated people per person for the "
+                                "expected SaO2 range, as in 'altox range' and 'altox readings' (0 skips "
+                                "the simulation only; readings are still reviewed)."),
+    seed: int = typer.Option(ENSEMBLE_SEED, "--seed", help="Seed of the expected range (the same default "
+                             "as 'altox range' and 'altox readings')."),
 ):
     """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
     from . import render
@@ -206,6 +223,7 @@ def plan(
 
     if not 0 <= members <= 100_000:
         _fail(f"--members: {members} is outside the accepted range; expected 0 to 100,000.")
+    run_guarded(lambda: check_seed(seed))
     results, plans, failed = [], [], []
     for path in files:
         try:
@@ -223,7 +241,7 @@ def plan(
         rows = [row for r in results for row in render.plan_csv_rows(r, timeline=timeline)]
         typer.echo(render.to_csv(rows), nl=False)
     else:
-        from rich.console import Console
+        from .terminal import console as Console
 
         console = Console()
         for r in results:
@@ -238,15 +256,35 @@ def plan(
             rule_files = [r for r in rules if _is_file(r)]
             rule_sets, _missing = applied_rule_sets(results[0], rule_files)
             if chart:
-                save_chart(results[0], chart, feet=feet, rule_sets=rule_sets)
+                with _write_errors("--chart", chart):
+                    save_chart(results[0], chart, feet=feet, rule_sets=rule_sets)
                 typer.echo(f"altox: wrote chart {chart}", err=True)
             if report:
-                write_report(results[0], report, plan=plans[0], feet=feet, rule_sets=rule_sets)
+                with _write_errors("--report", report):
+                    write_report(results[0], report, plan=plans[0], feet=feet, rule_sets=rule_sets)
                 typer.echo(f"altox: wrote report {report}", err=True)
         run_guarded(write_outputs)
     if failed:
         typer.echo(f"Error: {len(failed)} of {len(files)} plan(s) failed: {', '.join(failed)}", err=True)
         raise typer.Exit(2)
+
+
+class _write_errors:
+    """Context manager: an OSError while writing an output file becomes one message naming the option."""
+
+    def __init__(self, option: str, path: str):
+        self.option, self.path = option, path
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if exc is not None and isinstance(exc, OSError):
+            reason = exc.strerror or type(exc).__name__
+            raise AltoxError(f"{self.option}: cannot write {self.path!r}: {reason} (nothing was written); "
+                             "expected a writable folder with free space.", field=self.option,
+                             value=self.path) from None
+        return False
 
 
 @app.command()
@@ -285,6 +323,7 @@ def schema():
 from . import cli_oxygen  # noqa: E402,F401  o2-target, o2-flow, cylinders, room, decompress
 from . import cli_people  # noqa: E402,F401  readings, range, fitness-to-fly
 from . import cli_fix  # noqa: E402,F401  fix
+from . import cli_fleet  # noqa: E402,F401  review (many plans)
 
 
 def main() -> None:  # console-script entry point

@@ -398,6 +398,9 @@ def _rule_id(value) -> str:
 def _nonblank(value):
     if isinstance(value, str) and not value.strip():
         raise _Problem("the text is blank; expected a name.", expected="non-empty text")
+    if isinstance(value, str) and ("\n" in value or "\t" in value):
+        raise _Problem(f"the name {value!r} spans lines or holds a tab; expected a name on one line.",
+                       expected="a name on one line")
     return value
 
 
@@ -537,6 +540,26 @@ class LakeLouise(_Model):
     dizziness: _LLS_ITEM = Field(description="Dizziness or light-headedness, 0-3.")
 
 
+HapeSymptom = Literal["dyspnoea_at_rest", "cough", "weakness", "chest_tightness"]
+HapeSign = Literal["crackles", "central_cyanosis", "tachypnoea", "tachycardia"]
+_WORD_ALIASES = {"dyspnea_at_rest": "dyspnoea_at_rest", "tachypnea": "tachypnoea",
+                 "decreased_exercise_performance": "weakness", "chest_congestion": "chest_tightness",
+                 "wheezing": "crackles", "cyanosis": "central_cyanosis"}
+
+
+def _words(value):
+    """Symptom and sign words: case, spaces and hyphens do not matter; US spellings accepted."""
+    if not isinstance(value, list):
+        return value
+    out = []
+    for v in value:
+        if isinstance(v, str):
+            k = re.sub(r"[\s\-]+", "_", v.strip().lower())
+            v = _WORD_ALIASES.get(k, k)
+        out.append(v)
+    return out
+
+
 class Observation(_Model):
     """A reading taken on the expedition: SpO2, heart rate and/or a Lake Louise score."""
 
@@ -556,13 +579,23 @@ class Observation(_Model):
         None, alias="heart_rate", description="Resting heart rate. [/min]")
     lake_louise: Optional[Union[LakeLouise, Annotated[StrictInt, Field(ge=0, le=12)]]] = Field(
         None, description="2018 Lake Louise AMS score: the four items, or the total (0-12) alone.")
+    symptoms: Annotated[list[HapeSymptom], BeforeValidator(_words)] = Field(
+        default_factory=list, description="Symptoms of the consensus definition of high-altitude "
+        "pulmonary oedema present at the reading: dyspnoea_at_rest, cough, weakness (or decreased "
+        "exercise performance), chest_tightness (or congestion).")
+    signs: Annotated[list[HapeSign], BeforeValidator(_words)] = Field(
+        default_factory=list, description="Signs of that definition found on examination: crackles "
+        "(or wheezing, in at least one lung field), central_cyanosis, tachypnoea, tachycardia "
+        "(also taken from a heart rate above 100 /min).")
     note: Optional[StrictStr] = Field(None, description="Free text.")
 
     @model_validator(mode="after")
     def _something(self):
-        if self.spo2 is None and self.heart_rate_per_min is None and self.lake_louise is None:
-            raise _Problem("a reading needs at least one of 'spo2', 'heart_rate' or 'lake_louise'.",
-                           expected="spo2, heart_rate or lake_louise", value=None)
+        if (self.spo2 is None and self.heart_rate_per_min is None and self.lake_louise is None
+                and not self.symptoms and not self.signs):
+            raise _Problem("a reading needs at least one of 'spo2', 'heart_rate', 'lake_louise', "
+                           "'symptoms' or 'signs'.",
+                           expected="spo2, heart_rate, lake_louise, symptoms or signs", value=None)
         return self
 
 
@@ -678,13 +711,32 @@ class _PlanBase(_Model):
                            loc=("sample_every",), expected="a coarser sample_every")
 
 
+#: Cyrillic and Greek letters drawn like Latin ones (the common look-alikes; a name mixing them would
+#: print exactly like another)
+_LOOKALIKES = str.maketrans("АВЕКМНОРСТХаеорсухіјѕԁԛԝΑΒΕΖΗΙΚΜΝΟΡΤΥΧον",
+                            "ABEKMHOPCTXaeopcyxijsdqwABEZHIKMNOPTYXov")
+
+
+def _shown_as(name: str) -> str:
+    """What a name looks like on a page: compatibility forms folded (NFKC), look-alike letters mapped to
+    Latin, runs of spaces and spaces at the ends ignored."""
+    import unicodedata
+
+    folded = unicodedata.normalize("NFKC", name).translate(_LOOKALIKES)
+    return " ".join(folded.split())
+
+
 def _unique_names(people, key: str):
     seen: dict[str, int] = {}
     for i, person in enumerate(people):
-        if person.name in seen:
-            raise _Problem(f"the name {person.name!r} is used twice (also {key}[{seen[person.name]}]); "
-                           "expected unique names.", loc=(key, i, "name"), expected="unique names")
-        seen[person.name] = i
+        shown = _shown_as(person.name)
+        if shown in seen:
+            j = seen[shown]
+            other = people[j].name
+            same = "is used twice" if other == person.name else f"reads the same as {other!r}"
+            raise _Problem(f"the name {person.name!r} {same} (also {key}[{j}]); expected names that can be "
+                           "told apart on paper.", loc=(key, i, "name"), expected="unique names")
+        seen[shown] = i
 
 
 class ExpeditionPlan(_PlanBase):
@@ -1194,7 +1246,7 @@ def plan_from_data(data, path: str = "<data>", positions: PositionMap | None = N
              "'kind: flight' at the top of the plan.", loc=("kind",),
              expected="kind: expedition or kind: flight")
     kind = data["kind"]
-    if kind not in _KINDS:
+    if not isinstance(kind, str) or kind not in _KINDS:
         fail(f"kind: {_show(kind)} is not a plan kind.{_suggest(kind, list(_KINDS))} Expected "
              "'expedition' or 'flight'.", loc=("kind",), value=kind, expected="expedition or flight")
     model = _KINDS[kind]
