@@ -11,6 +11,7 @@ from typing import Optional
 import typer
 
 from .cli import app, run_guarded
+from .defaults import ENSEMBLE_MEMBERS
 
 
 #: seconds before a progress bar appears
@@ -60,8 +61,10 @@ def fix(
     write: Optional[str] = typer.Option(None, "--write", help="Write the repaired plan to this new .yaml file."),
     force: bool = typer.Option(False, "--force", help="Replace an existing --write file (never the input)."),
     json_out: bool = typer.Option(False, "--json", help="Print JSON instead of tables."),
-    members: int = typer.Option(200, "--members", help="Simulated people per person for --goal."),
-    seed: Optional[int] = typer.Option(None, "--seed", help="Seed of the expected range for --goal."),
+    members: int = typer.Option(ENSEMBLE_MEMBERS, "--members", help="Simulated people per person for --goal "
+                                                                    "(as altox plan)."),
+    seed: Optional[int] = typer.Option(None, "--seed", help="Seed of the expected range for --goal "
+                                                            "(default: altox plan's)."),
 ):
     """Propose the smallest change that makes a plan meet its guidance (and a goal): fewest added days
     then least oxygen for an itinerary; fewest changed legs, then least altitude change, then least oxygen

@@ -535,7 +535,7 @@ def _day_of_oxygen(plan, tl):
 
 # -- entry point ----------------------------------------------------------------------------------
 def repair_plan(path, *, goal: str | Goal | None = None, keep: str = "all", max_days: int | None = None,
-                allow_oxygen: bool = True, members: int = 200, seed: int | None = None,
+                allow_oxygen: bool = True, members: int | None = None, seed: int | None = None,
                 max_states: int = MAX_STATES, progress=None) -> Repair:
     """The smallest repair of a plan file: fewest added days (then least oxygen) for an itinerary.
 
@@ -553,7 +553,8 @@ def repair_plan(path, *, goal: str | Goal | None = None, keep: str = "all", max_
     allow_oxygen : bool
         Whether planned oxygen may be added to meet the goal.
     members, seed
-        Simulated people per person for the goal's expected range, and its seed.
+        Simulated people per person for the goal's expected range, and its seed (default:
+        those of ``altox plan``, so the goal is judged on the range it shows).
     max_states : int
         Bound on the states the search expands.
     progress : callable, optional
@@ -586,10 +587,11 @@ def repair_plan(path, *, goal: str | Goal | None = None, keep: str = "all", max_
 
 
 def _repair_expedition(plan, text, *, goal, keep, max_days, allow_oxygen, members, seed, max_states, progress):
-    from .population import DEFAULT_SEED
+    from .population import DEFAULT_MEMBERS, DEFAULT_SEED
     from .profile import load_plan_text
 
     seed = DEFAULT_SEED if seed is None else seed
+    members = DEFAULT_MEMBERS if members is None else members
     rule_sets = _expedition_rule_sets(plan)
     reasons = []
     search = _search_itinerary(plan, rule_sets, max_days=max_days, keep=keep, max_states=max_states,
