@@ -61,8 +61,10 @@ def test_terminal_never_shows_a_saturation_for_the_leg():
     res = run_cli("plan", FIXTURE, "--members", "10")
     assert res.returncode == 0, res.stderr
     out = res.stdout
-    worst = next(line for line in out.splitlines() if line.startswith("Worst leg:"))
+    worst = next(line for line in out.splitlines() if line.startswith("Worst moment:"))
     assert "no steady state" in worst and "SaO2" not in worst
+    per_person = [line for line in out.splitlines() if line.startswith(("reference adult ", "Mira", "Jory", "Pim"))]
+    assert len(per_person) == 4 and all(" none " in line for line in per_person)
     row = next(line for line in out.splitlines() if line.strip("│ ").startswith(f"{FAILURE_LEG} ")
                and "none" in line)
     assert "?" in row
@@ -104,8 +106,9 @@ def test_report_and_chart_show_the_gap(tmp_path, failed):
 
     html = build_report(failed)
     summary = html[html.index('id="summary"'):html.index("</section>", html.index('id="summary"'))]
-    assert "no steady state: time of useful consciousness 17-25 s" in summary
-    assert "expected SaO2" not in summary
+    worst = summary[summary.index("Worst moment:"):summary.index("</p>", summary.index("Worst moment:"))]
+    assert "no steady state: time of useful consciousness 17-25 s" in worst and "SaO2" not in worst
+    assert summary.count("no steady state: time of useful consciousness 17-25 s") == 5   # worst + 4 people
     legs = html[html.index('id="legs"'):]
     assert "no steady state: time of useful consciousness 17-25 s" in legs
 
