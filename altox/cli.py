@@ -6,6 +6,7 @@ from typing import Optional
 
 import typer
 
+from .defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 from .errors import AltoxError, ProfileError
 
 app = typer.Typer(
@@ -131,9 +132,16 @@ def point(
                 raise type(exc)(f"{field}: {shown!r}: {exc.message}", field=field) from None
             raise
         from . import render
+        from .validity import describe
 
+        state = describe(result["validity_status"], result["validity_reasons"],
+                         inspired_po2_mmhg=result["inspired_po2_mmhg"], age_y=opts["age_y"])
         if json_out:
-            typer.echo(render.to_json(result))
+            data = {k: v for k, v in result.items() if k not in ("validity_status", "validity_reasons")}
+            data.update(validity_status=state["validity_status"],
+                        outside_validated_range=state["outside_validated_range"],
+                        validity_notes=state["validity_notes"], time_limited=state["time_limited"])
+            typer.echo(render.to_json(data))
             return
         from .terminal import console as Console
 
@@ -149,12 +157,12 @@ def point(
             assumptions.append("PaCO2 as measured (ventilation model not used).")
         if ph is not None:
             assumptions.append("pH as measured (acid-base model not used).")
-        Console().print(render.point_table(result, assumptions))
+        Console().print(render.point_table(result, assumptions, validity=state))
 
     run_guarded(body)
 
 
-def _load_and_evaluate(path: str, rules: list[str], members: int = 0, seed: Optional[int] = None):
+def _load_and_evaluate(path: str, rules: list[str], members: Optional[int] = None, seed: Optional[int] = None):
     """Load a plan, apply --rules, evaluate it and attach the reviews; returns (plan, result)."""
     from .evaluate import evaluate_plan, plan_extras
     from .profile import load_plan
@@ -200,9 +208,11 @@ def plan(
     report: Optional[str] = typer.Option(None, "--report", help="Also write a self-contained HTML report "
                                                                  "(.html) to share."),
     force: bool = typer.Option(False, "--force", help="Replace an existing --chart or --report file."),
-    members: int = typer.Option(200, "--members", help="Simulated people per person for the expected "
-                                                       "SaO2 range (0 skips it)."),
-    seed: Optional[int] = typer.Option(None, "--seed", help="Seed of the expected range (default fixed)."),
+    members: int = typer.Option(ENSEMBLE_MEMBERS, "--members", help="Simulated people per person for the "
+                                "expected SaO2 range, as in 'altox range' and 'altox readings' (0 skips "
+                                "the simulation only; readings are still reviewed)."),
+    seed: int = typer.Option(ENSEMBLE_SEED, "--seed", help="Seed of the expected range (the same default "
+                             "as 'altox range' and 'altox readings')."),
 ):
     """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
     from . import render
