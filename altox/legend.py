@@ -36,8 +36,10 @@ TERMS = (
     ("TUC", "time of useful consciousness after a decompression, at rest on air", "flight"),
     ("breaks n", "flag: the plan does not meet finding n of the verdict", "all"),
     ("met n", "flag: finding n asks for oxygen here and the plan provides it", "all"),
-    ("outside", "flag: the leg leaves the model's validated range (see the assumptions); its numbers "
-                "are not a prediction", "all"),
+    ("outside", "flag: the leg leaves the model: no steady state at rest, so no saturation is shown, "
+                "only how long consciousness may last (see the notes under the table)", "all"),
+    ("extrapolated", "flag: a steady state beyond the published data the model was checked against; "
+                     "treat the numbers with more caution", "all"),
     ("+O2", "supplemental oxygen is planned on this leg", "all"),
     ("(!)", "the assumed device cannot hold the target (see the note beside it)", "all"),
     ("Risk", "risk category of a person under the guideline's risk table (low, moderate, high)",
