@@ -379,7 +379,7 @@ def _age(value) -> float:
     expected = "an age in years as a plain number from 0 to 110, e.g. 45"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise _Problem(f"{value!r} is not an age; expected {expected}.", expected=expected)
-    if not (math.isfinite(value) and 0.0 < value <= 110.0):
+    if not (math.isfinite(value) and 0.0 <= value <= 110.0):
         raise _Problem(f"{value!r} is outside 0-110 years; expected {expected}.", expected=expected)
     return float(value)
 

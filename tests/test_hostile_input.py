@@ -222,3 +222,9 @@ def test_people_must_be_whole():
     args = ["cylinders", "--water", "10 L", "--fill", "200 bar", "--flow", "2 L/min", "--hours", "8 h"]
     assert_refused(RUN.invoke(app, args + ["--people", "2.9"]), where="--people", words=("whole number",))
     assert RUN.invoke(app, args + ["--people", "3"]).exit_code == 0
+
+
+def test_age_zero_is_accepted_as_documented(tmp_path):
+    """Found by the random-plan search: the docs say ages 0 to 110, the reader refused 0."""
+    res = RUN.invoke(app, ["check", _write(tmp_path, EXPEDITION.replace("age: 31", "age: 0"))])
+    assert res.exit_code == 0, res.output
