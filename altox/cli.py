@@ -168,6 +168,10 @@ def _load_and_evaluate(path: str, rules: list[str], members: Optional[int] = Non
     from .profile import load_plan
 
     plan = load_plan(path)
+    if members:
+        from .population import check_ensemble_size
+
+        check_ensemble_size(plan, members)
     if rules:
         plan = plan.model_copy(update={"rules": [r for r in rules if not _is_file(r)] or list(plan.rules)})
         files = [r for r in rules if _is_file(r)]
