@@ -4,7 +4,9 @@ from __future__ import annotations
 
 
 def _worst_text(entry) -> str:
-    return f"{entry['sao2_pct']:.0f} % ({entry['where']})"
+    from .render import saturation_text
+
+    return f"{saturation_text(entry['sao2_pct'], entry.get('time_limited'))} ({entry['where']})"
 
 
 def repair_renderables(original, repair, summary, *, written: str | None = None) -> list:

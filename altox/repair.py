@@ -728,7 +728,7 @@ def _side(plan) -> dict:
     for m in result.members:
         leg = result.legs[m["min_sao2_leg"] - 1]
         worst.append({"name": m["name"], "sao2_pct": m["min_sao2_pct"], "leg": m["min_sao2_leg"],
-                      "where": leg["label"]})
+                      "where": leg["label"], "time_limited": m.get("time_limited")})
     if plan.kind == "expedition":
         length = {"days": len(plan.days)}
     else:
