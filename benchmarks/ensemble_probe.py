@@ -1,9 +1,13 @@
 """Ensemble probe for benchmarks/run.py: one person's expected range over a 30-day plan sampled every minute.
 
-Run in its own process so that peak resident memory (ru_maxrss, the operating system's own
-accounting) belongs to this work alone. Prints: seconds, person-samples, peak MB.
+Run in its own process so that peak resident memory (VmHWM, the operating system's own
+accounting of this process; see fleet_probe.peak_rss_mb) belongs to this work alone. Prints:
+seconds, person-samples, peak MB.
 """
-import resource, sys, time
+import sys, time
+from pathlib import Path
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from fleet_probe import peak_rss_mb
 from altox.profile import load_plan_text
 from altox.population import expected_range
 days = "\n".join(f"  - {{day: {d}, sleep: '{min(2800 + 300 * (d // 2), 5200)} m'}}" for d in range(1, 31))
@@ -22,4 +26,4 @@ t = time.perf_counter()
 r = expected_range(plan, n=n, seed=1)
 dt = time.perf_counter() - t
 samples = len(r["time_h"])
-print(dt, n * samples, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0)
+print(dt, n * samples, peak_rss_mb())
