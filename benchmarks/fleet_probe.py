@@ -1,13 +1,14 @@
 """Fleet probe for benchmarks/run.py: review N invented variants of the flight demos in this process.
 
-Usage: python benchmarks/fleet_probe.py N [--oxygen] [--decompression] [--batch B]
+Usage: python benchmarks/fleet_probe.py N [--oxygen] [--decompression] [--batch B] [--jsonl]
 
 Writes N plan files (variants of the three flight demos: other cruise altitudes, cabin
 schedules and oxygen; one in a hundred made invalid) to a temporary folder, then times the whole batch path in this process:
 reading and validating every file, evaluating it, the rule verdicts and (with the flags) the
 oxygen and decompression reviews, with every result line serialised to JSON as the command
 does. Peak resident memory is this process's own (VmHWM, see peak_rss_mb). Prints: seconds, plans reviewed,
-plans failed, peak MB, CPU seconds.
+plans failed, peak MB, CPU seconds. With --jsonl the same plans are read from one JSON Lines
+file instead of N YAML files (the YAML parser's share of the cost).
 """
 import random
 import sys
@@ -62,6 +63,20 @@ def write_fleet(folder: Path, n: int, seed: int = 1) -> None:
                                                    encoding="utf-8")
 
 
+def write_stream(folder: Path) -> Path:
+    """The same plans as one JSON Lines file (each YAML plan as a JSON object on one line)."""
+    import json
+
+    import yaml
+
+    out = folder / "plans.jsonl"
+    with out.open("w", encoding="utf-8") as fh:
+        for path in sorted(folder.glob("plan-*.yaml")):
+            fh.write(json.dumps(yaml.safe_load(path.read_text(encoding="utf-8"))) + "\n")
+            path.unlink()
+    return out
+
+
 def main(argv):
     n = int(argv[0])
     oxygen = "--oxygen" in argv
@@ -70,6 +85,8 @@ def main(argv):
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
         write_fleet(folder, n)
+        if "--jsonl" in argv:
+            write_stream(folder)
         from altox.fleet import review_plans, to_json_line, FleetSummary
 
         summary = FleetSummary()
