@@ -112,14 +112,22 @@ def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
         table.add_row(when, r["member"], f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
                       (f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})" if e["low"] is not None
                        else f"{e['central']:.0f} (-)")
-                      + ("" if r["expected_sao2_pct"].get("model_valid", True) else " ?"),
+                      + ("" if r["expected_sao2_pct"].get("model_valid", True) else " ?")
+                      + (" x" if r.get("extrapolated") else ""),
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
                       lls, ", ".join(FLAG_WORDS.get(f["code"], f["code"]) for f in r["flags"]) or "-")
     out = [table if rows else Text("No observations in this plan.")]
     if rows:
         out.append(Text("Day and clock time; m: altitude; SpO2 and expected SpO2 in %, central value and "
                         "range; HR: heart rate /min; LLS: 2018 Lake Louise score; AMS: acute mountain sickness; "
-                        "HAPE: high-altitude pulmonary oedema.", style="dim"))
+                        "HAPE: high-altitude pulmonary oedema."
+                        + (" x: extrapolated (below)." if any(r.get("extrapolated") for r in rows) else ""),
+                        style="dim"))
+    seen = set()
+    for r in rows:
+        if r.get("extrapolated") and r["member"] not in seen:
+            seen.add(r["member"])
+            out.append(Text(f"x {r['member']}: {r['extrapolated']}."))
     for r in rows:
         for a in r.get("actions", []):
             out.append(Text(f"ACTION day {r['day']} {r['member']}: {a['action']} [{a['source']}]", style="bold"))
