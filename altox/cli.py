@@ -251,15 +251,20 @@ def plan(
 
 @app.command()
 def check(files: list[str] = typer.Argument(..., help="Plan files (YAML).")):
-    """Validate plan files without computing: format, units, order of days and legs."""
+    """Validate plan files without computing: format, units, order of days and legs, rule sets."""
     failed = []
     for path in files:
         def body(path=path):
+            from .evaluate import select_rule_sets
             from .profile import load_plan
 
             p = load_plan(path)
+            applied, notes = select_rule_sets(p)
             n = len(p.days) if p.kind == "expedition" else len(p.legs)
-            typer.echo(f"ok: {path} ({p.kind}, {n} {'days' if p.kind == 'expedition' else 'legs'})")
+            typer.echo(f"ok: {path} ({p.kind}, {n} {'days' if p.kind == 'expedition' else 'legs'}; "
+                       f"guidance: {', '.join(rs.id for rs in applied)})")
+            for note in notes:
+                typer.echo(f"  (!) {note}")
         try:
             run_guarded(body)
         except typer.Exit:

@@ -50,6 +50,7 @@ class PlanResult:
     findings: list                # rules.checker.Finding
     summary: dict
     notes: list[str] = field(default_factory=list)
+    guidance_notes: list[str] = field(default_factory=list)  # rule sets not applied; what was not checked
     extras: dict = field(default_factory=dict)   # expected ranges, readings, oxygen and decompression reviews
 
 
@@ -68,14 +69,71 @@ def _people(plan) -> list[Person]:
     return out
 
 
-def _rule_sets(plan):
+#: the kind of rule set that fits each kind of plan
+RULE_KIND_FOR_PLAN = {"flight": "aviation", "expedition": "expedition"}
+_KIND_WORDS = {"aviation": "aviation oxygen rules", "expedition": "expedition guidance"}
+
+
+def select_rule_sets(plan):
+    """Load the rule sets a plan names (or the defaults for its kind) and keep those that fit it.
+
+    Parameters
+    ----------
+    plan : ExpeditionPlan or FlightPlan
+
+    Returns
+    -------
+    (applied, notes)
+        ``applied``: the rule sets of the kind that fits the plan (aviation rules for a flight,
+        expedition guidance for an itinerary), in the plan's order; ``notes``: one sentence for
+        each rule set that does not fit and was therefore not applied.
+
+    Raises
+    ------
+    ProfileError
+        An unknown rule-set id or a faulty rule file (located in the plan where it can be), or
+        no rule set that fits the plan's kind (naming the ones given), rather than a silent
+        "0 not met".
+    """
+    from .errors import AltoxError, ProfileError
     from .rules import load_rule_set
 
+    path = plan.source_path or "<plan>"
     ids = list(plan.rules) or list(DEFAULT_RULES[plan.kind])
-    sets = [load_rule_set(i) for i in ids]
+    sets = []
+    for i, rid in enumerate(ids):
+        try:
+            sets.append(load_rule_set(rid))
+        except ProfileError:
+            raise
+        except AltoxError as exc:
+            line, col = plan.position_of("rules", i) if plan.rules else (None, None)
+            where = ":".join(str(x) for x in (path, line, col) if x is not None)
+            raise ProfileError(f"{where}: rules[{i}]: {exc.message}", path=path, line=line, column=col,
+                               field=f"rules[{i}]", value=rid, expected=exc.expected) from None
     if plan.rule_file_path is not None:
         sets.append(load_rule_set(plan.rule_file_path))
-    return sets
+    want = RULE_KIND_FOR_PLAN[plan.kind]
+    applied = [rs for rs in sets if rs.kind == want]
+    wrong = [rs for rs in sets if rs.kind != want]
+    if not applied:
+        named = "; ".join(f"{rs.id} ({_KIND_WORDS[rs.kind]})" for rs in wrong)
+        defaults = ", ".join(DEFAULT_RULES[plan.kind])
+        line, col = plan.position_of("rules") if plan.rules else (None, None)
+        where = ":".join(str(x) for x in (path, line, col) if x is not None)
+        raise ProfileError(f"{where}: rules: none of the rule sets applied fits a {plan.kind} plan: {named}. "
+                           f"Checking it against them would say nothing; expected {_KIND_WORDS[want]}, "
+                           f"e.g. {defaults} (the defaults for a {plan.kind}).", path=path, line=line,
+                           column=col, field="rules", value=[rs.id for rs in wrong],
+                           expected=f"{want} rule sets")
+    notes = [f"Not applied: {rs.id} ({rs.label}) is {_KIND_WORDS[rs.kind]} and does not fit a "
+             f"{plan.kind} plan; the plan was checked against "
+             f"{', '.join(r.id for r in applied)} only." for rs in wrong]
+    return applied, notes
+
+
+def _rule_sets(plan):
+    return select_rule_sets(plan)[0]
 
 
 #: cabin altitudes [ft] whose time above is summed for a flight's summary
@@ -167,7 +225,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     levels = sorted(plan.saturation_levels, reverse=True)
     ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
     below = {lvl: np.cumsum(dt * (ref["sao2_pct"] < 100 * lvl)) for lvl in levels}
-    findings, cabin_hours = guidance_findings(plan, rule_sets := _rule_sets(plan))
+    rule_sets, guidance_notes = select_rule_sets(plan)
+    findings, cabin_hours = guidance_findings(plan, rule_sets)
 
     legs = []
     if plan.kind == "flight":
@@ -274,7 +333,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     else:
         notes.append("A flight is acute exposure; cabin altitudes are pressure altitudes (ISA).")
     return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
-                      samples, member_samples, members, findings, summary, notes)
+                      samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes)
 
 
 def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, progress=None) -> dict:

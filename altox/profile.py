@@ -652,6 +652,16 @@ class _PlanBase(_Model):
         description="SpO2 levels to report time below; default 90 % and 80 %. [fraction]")
 
     _source_path: Optional[str] = PrivateAttr(default=None)
+    _positions: Any = PrivateAttr(default=None)   # where each value was written (PositionMap)
+
+    def position_of(self, *loc) -> tuple[Optional[int], Optional[int]]:
+        """(line, column) where a field was written, e.g. ``position_of("rules", 1)``; None unknown."""
+        if self._positions is None:
+            return None, None
+        try:
+            return self._positions.locate(tuple(loc))
+        except (KeyError, IndexError, TypeError, AttributeError):
+            return None, None
 
     @property
     def source_path(self) -> Optional[str]:
@@ -1222,6 +1232,7 @@ def load_plan_text(text: str, path: str = "<string>"):
     """
     data, positions = parse_yaml(text, path)
     plan = plan_from_data(data, path, positions)
+    plan._positions = positions
     if path and not path.startswith("<"):
         plan._source_path = path
     return plan
@@ -1254,6 +1265,7 @@ def load_plan(path):
     name = str(path)
     plan = plan_from_data(data, name, positions)
     plan._source_path = name
+    plan._positions = positions
     if plan.rule_file is not None:
         target = plan.rule_file_path
         if not target.is_file():

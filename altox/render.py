@@ -225,8 +225,9 @@ def plan_renderables(result, *, feet: bool = False):
     lines.append(f"Guidance applied: {', '.join(result.rule_sets)}; {s['rules_broken']} not met, "
                  f"{s['rules_touched']} touched.")
     out.append(Text("Summary\n" + "\n".join(lines)))
-    if result.findings:
-        g = ["Guidance"]
+    notes = getattr(result, "guidance_notes", [])
+    if result.findings or notes:
+        g = ["Guidance"] + [f"(!) {n}" for n in notes]
         for k, f in enumerate(result.findings):
             mark = FLAG_MET if f.status == "required-planned" else FLAG_BROKEN
             g.append(f"{mark}{k + 1} [{f.rule_set_id} {f.section}] {f.message} Source: {f.citation}")
@@ -290,6 +291,7 @@ def plan_to_dict(result, *, timeline: bool = False) -> dict:
         "plan": result.name, "kind": result.kind, "source": result.source,
         "rule_sets": result.rule_sets, "summary": result.summary, "legs": legs,
         "members": result.members, "findings": [asdict(f) for f in result.findings],
+        "guidance_notes": list(getattr(result, "guidance_notes", [])),
         "notes": result.notes, "caution": CAUTION,
     }
     for key, value in result.extras.items():
@@ -309,10 +311,14 @@ def plan_csv_rows(result, *, timeline: bool = False) -> list[dict]:
     """One flat row per leg (or per sample with ``timeline``), each with the plan's name."""
     if timeline:
         n = len(result.samples["time_h"])
-        return [{"plan": result.name, **{k: v[i] for k, v in result.samples.items()}} for i in range(n)]
-    rows = []
-    for leg in result.legs:
-        row = {"plan": result.name, **{k: v for k, v in leg.items() if k != "flags"}}
-        row["flags"] = " ".join(_flag_text(result, {"flags": [k]}) for k in leg["flags"])
-        rows.append(row)
+        rows = [{"plan": result.name, **{k: v[i] for k, v in result.samples.items()}} for i in range(n)]
+    else:
+        rows = []
+        for leg in result.legs:
+            row = {"plan": result.name, **{k: v for k, v in leg.items() if k != "flags"}}
+            row["flags"] = " ".join(_flag_text(result, {"flags": [k]}) for k in leg["flags"])
+            rows.append(row)
+    notes = " ".join(getattr(result, "guidance_notes", []))
+    for row in rows:  # on every row, so no reader of the file misses it
+        row["guidance_notes"] = notes
     return rows

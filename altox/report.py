@@ -509,6 +509,9 @@ def _decompression(result, rule_sets, review) -> str:
 
 def _guidance(result, rule_sets, missing) -> str:
     parts = ['<section id="guidance">', "<h2>Guidance applied and its sources</h2>"]
+    if getattr(result, "guidance_notes", None):
+        parts.append('<ul class="plain">' + "".join(f"<li><strong>(!)</strong> {_e(n)}</li>"
+                                                   for n in result.guidance_notes) + "</ul>")
     if result.findings:
         parts.append("<h3>What the plan touches</h3>")
         items = []
