@@ -163,9 +163,8 @@ def _expedition_planned(plan):
         for n in names:
             litres[n] += rows[-1]["litres_per_person"]
     assumptions = [
-        f"Devices: {', '.join(f'{k}: {v}' for k, v in defaults.items())} (oxygen_devices.yaml).",
-        f"Activities: {', '.join(f'{k}: {acts[k]}' for k in ('sleep', 'climb', 'all'))} "
-        "(activity_ventilation.yaml).",
+        f"Devices assumed: {', '.join(f'{k}: {v}' for k, v in defaults.items())}.",
+        f"Activities assumed: {', '.join(f'{k}: {acts[k]}' for k in ('sleep', 'climb', 'all'))}.",
         f"Oxygen 'sleep' is the night, {night_h:g} h; 'climb' the hours at the high point; 'all' 24 h.",
         "Everyone in the party breathes the day's oxygen (the plan format gives it to the whole party).",
         "Acclimatization for ventilation: the days since the start of the plan (an upper bound).",

@@ -60,6 +60,19 @@ def to_json(obj) -> str:
     return json.dumps(walk(obj), indent=2, ensure_ascii=False)
 
 
+#: keys of altox's data that are notes for maintainers (how a figure was checked), never user output
+MAINTAINER_KEYS = frozenset({"basis", "where", "checked", "patient_flow_basis", "rapid_decompression_basis"})
+
+
+def public(obj):
+    """``obj`` without maintainers' notes: every mapping loses the keys in :data:`MAINTAINER_KEYS`."""
+    if isinstance(obj, dict):
+        return {k: public(v) for k, v in obj.items() if k not in MAINTAINER_KEYS}
+    if isinstance(obj, (list, tuple)):
+        return [public(v) for v in obj]
+    return obj
+
+
 def to_csv(rows: list[dict]) -> str:
     """CSV text of a list of flat mappings; the header is the union of keys in first-seen order."""
     keys: list[str] = []
@@ -278,6 +291,17 @@ def extras_renderables(result) -> list:
     return out
 
 
+def finding_dict(finding) -> dict:
+    """A finding for users: its fields without the maintainers' basis, with ``figure_checked``."""
+    from dataclasses import asdict
+
+    from .rules.checker import figure_checked
+
+    data = {k: v for k, v in asdict(finding).items() if k != "basis"}
+    data["figure_checked"] = figure_checked(finding.basis)
+    return data
+
+
 def plan_to_dict(result, *, timeline: bool = False) -> dict:
     """JSON-ready mapping of an evaluated plan (same numbers as the tables)."""
     from dataclasses import asdict
@@ -290,7 +314,7 @@ def plan_to_dict(result, *, timeline: bool = False) -> dict:
     data = {
         "plan": result.name, "kind": result.kind, "source": result.source,
         "rule_sets": result.rule_sets, "summary": result.summary, "legs": legs,
-        "members": result.members, "findings": [asdict(f) for f in result.findings],
+        "members": result.members, "findings": [finding_dict(f) for f in result.findings],
         "guidance_notes": list(getattr(result, "guidance_notes", [])),
         "notes": result.notes, "caution": CAUTION,
     }
@@ -301,6 +325,7 @@ def plan_to_dict(result, *, timeline: bool = False) -> dict:
             value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
                                for p in value["people"]]
         data[key] = value
+    data = public(data)
     if timeline:
         n = len(result.samples["time_h"])
         data["timeline"] = [{k: v[i] for k, v in result.samples.items()} for i in range(n)]

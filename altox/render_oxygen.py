@@ -71,7 +71,7 @@ def oxygen_review_renderables(review: dict, *, with_caution: bool = True) -> lis
     if c is not None:
         t = _table("Cylinders", [("Person", False), ("Oxygen L", True), ("Cylinders", True)],
                    caption=f"{c['label']}: {c['usable_l']:,.0f} L usable of {c['gas_l']:,.0f} L; margin "
-                           f"{c['safety_margin_fraction']:.0%} ({c['basis']}).")
+                           f"{c['safety_margin_fraction']:.0%}.")
         for p in c["per_person"]:
             t.add_row(p["name"], _num(p["litres"]), str(p["cylinders"]))
         t.add_row("Total", _num(c["litres_total"]), str(c["cylinders_total"]))
@@ -85,7 +85,8 @@ def oxygen_review_renderables(review: dict, *, with_caution: bool = True) -> lis
         t = _table(f"To hold an equivalent altitude of {target_m:,.0f} m ({target_m * _FT_PER_M:,.0f} ft)",
                    [("Leg", True), ("PB mmHg", True), ("FiO2", True), ("Device", False), ("L/min", True),
                     ("Note", False)],
-                   caption=f"Target: {review['target']['basis']}. Ceiling = highest altitude where 100 % O2 holds it.")
+                   caption=f"Target: {review['target']['source'].strip()} Ceiling = highest altitude where 100 % O2 "
+                           "holds it.")
         for r in review["would_need"]:
             if not r["reachable"]:
                 note = f"100 % O2 not enough; ceiling {_num(r['ceiling_pressure_altitude_ft'])} ft"
@@ -130,7 +131,7 @@ def decompression_review_renderables(review: dict, *, with_caution: bool = True)
                  f"- Oxygen until the cabin is below {free['crew']:,.0f} ft for crew ({free['crew_from']}) "
                  f"and {free['passengers']:,.0f} ft for passengers ({free['passengers_from']}); "
                  f"{review['crew_count']} crew, {review['passenger_count']} others aboard.",
-                 f"- Convention ({review['convention']['basis']}): {review['convention']['rule']}",
+                 f"- altox's convention: {review['convention']['rule']}",
                  f"- TUC: {review['tuc_interpolation']}. {review['tuc_caution']} A rapid decompression may "
                  "shorten it by up to half.",
                  "- Litres are per occupant at reference conditions, before any planning margin; "

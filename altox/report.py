@@ -421,7 +421,7 @@ def _oxygen(result, rule_sets, review) -> str:
         rows = [([_e(p["name"]), _num(p["litres"]), str(p["cylinders"])], "") for p in c["per_person"]]
         rows.append((["<strong>Total</strong>", _num(c["litres_total"]), str(c["cylinders_total"])], ""))
         parts.append(_table(f"Cylinders: {c['label']}, {c['usable_l']:,.0f} L usable of {c['gas_l']:,.0f} L; "
-                            f"margin {c['safety_margin_fraction']:.0%} ({c['basis']})",
+                            f"margin {c['safety_margin_fraction']:.0%}",
                             ["Person", "Oxygen L", "Cylinders"], [False, True, True], rows))
         pack = [([_e(i["item"]), str(i["quantity"]), _e(i["note"])], "") for i in review["packing_list"]]
         parts.append(_table("Packing list", ["Item", "Qty", "Note"], [False, True, False], pack))
@@ -439,8 +439,7 @@ def _oxygen(result, rule_sets, review) -> str:
                             f"what the legs above it would need",
                             ["Leg", "PB mmHg", "FiO2", "Device", "L/min", "Note"],
                             [True, True, True, False, True, False], rows))
-        parts.append(f'<p class="source">Review target: {_s(review["target"]["source"])}; basis: '
-                     f'{_s(review["target"]["basis"])}.</p>')
+        parts.append(f'<p class="source">Review target: {_s(review["target"]["source"])}.</p>')
     if review:
         items = "".join(f"<li>{_e(a)}</li>" for a in list(review.get("assumptions", [])) + list(review.get("notes", [])))
         if items:
@@ -460,9 +459,16 @@ def _decompression(result, rule_sets, review) -> str:
         for th in rs.thresholds:
             if th.condition and re.search(r"failure|decompression", th.condition, re.I):
                 dur = f", {th.duration}" if th.duration else ""
+                from .rules.checker import figure_checked
+
+                if not figure_checked(th.basis):
+                    limits.append(f"<li>{_e(th.condition)}: figure not shown, as altox has not checked it "
+                                  f"against the published text; read the section itself. <span class=\"source\">"
+                                  f"{_e(rs.label)} {_e(th.section)}.</span></li>")
+                    continue
                 limits.append(f"<li><strong>{_e(th.value)}{_e(dur)}</strong> &ndash; {_s(th.requirement)} "
-                              f"({_e(th.condition)}). <span class=\"source\">{_e(rs.label)} {_e(th.section)}; "
-                              f"basis: {_s(th.basis)}.</span></li>")
+                              f"({_e(th.condition)}). <span class=\"source\">{_e(rs.label)} {_e(th.section)}."
+                              "</span></li>")
     applicable = bool(review and review.get("applicable"))
     if not limits and not applicable:
         return ""
@@ -489,7 +495,7 @@ def _decompression(result, rule_sets, review) -> str:
         notes = [f"Oxygen until the cabin is below {free['crew']:,.0f} ft for crew ({free['crew_from']}) and "
                  f"{free['passengers']:,.0f} ft for passengers ({free['passengers_from']}); "
                  f"{review['crew_count']} crew, {review['passenger_count']} others aboard.",
-                 f"Convention ({review['convention']['basis']}): {review['convention']['rule']}",
+                 f"altox's convention: {review['convention']['rule']}",
                  f"TUC: {review['tuc_interpolation']}. {review['tuc_caution']} A rapid decompression may shorten "
                  "it by up to half.",
                  "Litres are per occupant at reference conditions, before any planning margin; certified "
@@ -519,31 +525,37 @@ def _guidance(result, rule_sets, missing) -> str:
             met = f.status == "required-planned"
             items.append(f'<li><span class="flag {"m" if met else "x"}">{FLAG_MET if met else FLAG_BROKEN}{k + 1}</span> '
                          f"[{_e(f.rule_set_id)} {_e(f.section)}] {_e(f.message)} "
-                         f'<span class="source">Source: {_s(f.citation)}; basis: {_e(f.basis or "-")}.</span></li>')
+                         f'<span class="source">Source: {_s(f.citation)}.</span></li>')
         parts.append('<ol class="findings">' + "".join(items) + "</ol>")
     else:
         parts.append("<p>The plan touches no threshold of the rule sets applied. That is a statement about "
                      "altox's reading of the guidance, not a clearance.</p>")
     parts.append("<h3>Rule sets</h3>")
     for rs in rule_sets:
-        ths = "".join(
-            f"<li>{_e(th.value)}"
-            + (f" to {_e(th.band_top)}" if th.band_top else "")
-            + (f" above {_e(th.above)}" if th.above else "")
-            + (f", {_e(th.duration)}" if th.duration else "")
-            + f" ({_e(th.applies_to)}): {_s(th.requirement)}. "
-            f'<span class="source">{_e(th.section)}; basis: {_e(th.basis)}; {_s(th.where)}.</span></li>'
-            for th in rs.thresholds)
+        ths = "".join(_threshold_item(th) for th in rs.thresholds)
         url = f" Official text: <code>{_e(rs.url)}</code>." if rs.url else ""
         parts.append(f'<h3 id="rules-{_e(rs.id)}">{_e(rs.title)} <span class="small">({_e(rs.id)})</span></h3>\n'
-                     f'<p class="source">{_s(rs.jurisdiction)}. Edition: {_s(rs.edition)}. In force: '
-                     f"{_s(rs.effective)}. Citation: {_s(rs.citation)}.{url}</p>\n"
+                     f'<p class="source">{_s(rs.jurisdiction)}. Citation: {_s(rs.citation)}.{url}</p>\n'
                      f'<p class="note">{_e(rs.caution)}</p>\n<ul class="plain">{ths}</ul>')
     for rid in missing:
         parts.append(f"<p>Rule set {_e(rid)}: its file was not at hand when the report was written; see the "
                      "findings above for what it says about the plan.</p>")
     parts.append("</section>")
     return "\n".join(parts)
+
+
+def _threshold_item(th) -> str:
+    """One threshold of a rule set; its figure only when checked against the published text."""
+    from .rules.checker import figure_checked
+
+    if figure_checked(th.basis):
+        head = (_e(th.value) + (f" to {_e(th.band_top)}" if th.band_top else "")
+                + (f" above {_e(th.above)}" if th.above else "") + (f", {_e(th.duration)}" if th.duration else "")
+                + f" ({_e(th.applies_to)}): {_s(th.requirement)}. ")
+    else:
+        head = (f"({_e(th.applies_to)}) figure not shown: altox has not checked it against the published "
+                "text; read the section itself. ")
+    return f'<li>{head}<span class="source">{_e(th.section)}.</span></li>'
 
 
 def _assumptions(result, with_reviews: bool = True) -> str:

@@ -6,6 +6,8 @@ ids name the rule set and the section of the source (e.g. ``us-14cfr-91:91.211(a
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 
@@ -14,6 +16,7 @@ from altox.rules import (Finding, available_rule_sets, check_flight, check_itine
                          load_rule_set, risk_category)
 
 MIN = 1.0 / 60.0
+RULES_DIR = Path(__file__).resolve().parents[1] / "altox" / "data" / "rules"
 SHIPPED = ["eu-nco", "icao-annex6", "us-14cfr-121", "us-14cfr-135", "us-14cfr-25",
            "us-14cfr-91", "wms-2019", "wms-2024"]
 
@@ -430,8 +433,33 @@ def test_prophylaxis_text_follows_category_and_history():
     _, _, low = risk_category(set(), *one_day(2_000)[:2], 500, "wms-2019")
     assert "acetazolamide" not in low.lower() and "moderate or high risk" in low
     _, _, high = risk_category({"hape"}, *one_day(2_000)[:2], 500, "wms-2019")
-    assert "acetazolamide" in high and "125 mg" in high and "nifedipine" in high
-    assert "basis: from memory" in high  # the dose was not read in the source
+    assert "acetazolamide" in high and "nifedipine" in high
+    # the dose was not checked against the guideline: no number, a pointer to its table, and
+    # no maintainer note (where it was read, "from memory") in the user's text
+    assert "125 mg" not in high and "dosing table" in high
+    assert "basis" not in high and "from memory" not in high and "read" not in high.replace("already", "")
+
+
+def test_a_dose_checked_against_its_source_is_shown(tmp_path):
+    import yaml
+
+    data = yaml.safe_load((RULES_DIR / "wms-2019.yaml").read_text())
+    data["id"] = "wms-checked"
+    data["prophylaxis"]["high"]["dose"]["basis"] = "read"
+    path = tmp_path / "wms-checked.yaml"
+    path.write_text(yaml.safe_dump(data))
+    _, _, high = risk_category({"hape"}, *one_day(2_000)[:2], 500, str(path))
+    assert "125 mg" in high and "dosing table" not in high
+
+
+def test_a_threshold_not_checked_shows_no_figure():
+    # ICAO Annex 6 figures are marked from memory in the data: the finding names the section only
+    t = [0.0, 1.0]
+    found = check_flight(t, [1.0, 1.0], [13_500.0, 13_500.0], [0, 0], "none", "icao-annex6")
+    assert found
+    for f in found:
+        assert "hPa" not in f.message and "ft" not in f.message.replace("aft", "")
+        assert "read the section itself" in f.message and f.section in f.message
 
 
 def test_risk_notes_a_start_above_1200_m():

@@ -139,7 +139,22 @@ def _who(applies_to: str) -> str:
             "all occupants": "all occupants", "party": "the party"}[applies_to]
 
 
+#: bases of a figure that count as checked against its source (``local``: the user's own file)
+CHECKED_BASES = ("read", "local")
+
+
+def figure_checked(basis: str) -> bool:
+    """Whether a figure with this ``basis`` may be shown to users (checked against its source)."""
+    return basis in CHECKED_BASES
+
+
 def _finding(rs: RuleSet, th: Threshold, legs, status: str, message: str) -> Finding:
+    if not figure_checked(th.basis):
+        # a figure not checked against the published text is not shown: point to the section
+        what = "days" if rs.kind == "expedition" else "legs"
+        message = (f"Guidance from {rs.label} {th.section} (for {_who(th.applies_to)}) may apply to this plan on "
+                   f"{what} {_fmt_list(sorted({int(x) for x in legs}))}. Its figure is not shown because "
+                   "altox has not checked it against the published text: read the section itself.")
     return Finding(rule_set_id=rs.id, threshold_id=th.id, section=th.section,
                    citation=th.citation or rs.citation, legs=sorted({int(x) for x in legs}),
                    applies_to=th.applies_to, status=status, message=message, basis=th.basis)
@@ -476,10 +491,13 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
 
     proph = rs.prophylaxis
     chosen = getattr(proph, category)
-    text = f"{chosen.text} (basis: {chosen.basis}; {chosen.where})."
+    # users see the guideline's words and its citation; where a text was read stays in the data
+    text = f"{chosen.text.rstrip('.')}."
     if chosen.dose is not None:
-        text += f" {chosen.dose.text} (basis: {chosen.dose.basis}; {chosen.dose.where})."
+        # a dose is shown only when checked against the guideline itself; otherwise point to it
+        text += (f" {chosen.dose.text.rstrip('.')}." if figure_checked(chosen.dose.basis)
+                 else " For doses see the guideline's dosing table.")
     if "hape" in history and proph.hape is not None:
-        text += f" {proph.hape.text} (basis: {proph.hape.basis}; {proph.hape.where})."
+        text += f" {proph.hape.text.rstrip('.')}."
     text += f" Source: {rs.citation} Guidance only; discuss with a licensed clinician."
     return category, reasons, text

