@@ -28,7 +28,7 @@ def run_guarded(func):
     """Call ``func``; named errors become one message and exit 2, bugs a short note and exit 1."""
     try:
         return func()
-    except typer.Exit:
+    except (typer.Exit, BrokenPipeError):
         raise
     except ProfileError as exc:
         where = exc.location()
@@ -289,6 +289,7 @@ def schema():
 # commands in their own modules register themselves on `app`
 from . import cli_oxygen  # noqa: E402,F401  o2-target, o2-flow, cylinders, room, decompress
 from . import cli_people  # noqa: E402,F401  readings, range, fitness-to-fly
+from . import cli_fleet  # noqa: E402,F401  review (many plans)
 
 
 def main() -> None:  # console-script entry point

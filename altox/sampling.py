@@ -85,6 +85,27 @@ class Knots:
     def __len__(self) -> int:
         return int(self.index.size)
 
+    @classmethod
+    def concatenate(cls, parts) -> "Knots":
+        """Knots of several independent timelines laid end to end (samples and knots in order).
+
+        Each part keeps its own knots and interpolates only within itself, so evaluating the
+        concatenation at its knots in one call gives every part exactly what it alone would get.
+        """
+        parts = list(parts)
+        out = cls.__new__(cls)
+        sizes = np.array([p.n for p in parts], dtype=np.int64)
+        ks = np.array([p.index.size for p in parts], dtype=np.int64)
+        s_off = np.repeat(np.cumsum(sizes) - sizes, ks)
+        k_off = np.repeat(np.cumsum(ks) - ks, sizes)
+        out.n = int(sizes.sum())
+        out.time_h = np.concatenate([p.time_h for p in parts]) if parts else np.zeros(0)
+        out.index = (np.concatenate([p.index for p in parts]) if parts else np.zeros(0, dtype=np.int64)) + s_off
+        out.left = (np.concatenate([p.left for p in parts]) if parts else np.zeros(0, dtype=np.int64)) + k_off
+        out.right = (np.concatenate([p.right for p in parts]) if parts else np.zeros(0, dtype=np.int64)) + k_off
+        out.weight = np.concatenate([p.weight for p in parts]) if parts else np.zeros(0)
+        return out
+
     def at_knots(self, a):
         """``a`` restricted to the knots along its last axis when it varies along the samples."""
         a = np.asarray(a)
