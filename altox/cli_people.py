@@ -84,30 +84,46 @@ def _pct(x):
 
 
 def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
-    """Rich renderables of a readings review (table, flag lines, notes); the caller adds the caution."""
+    """Rich renderables of a readings review (table, flags, actions, oximetry caveats, notes).
+
+    The caller adds the general caution.  SpO2 readings are shown against the expected SpO2
+    range (the SaO2 range widened by the oximeter's published error).
+    """
     from rich.table import Table
     from rich.text import Text
 
+    from .readings import FLAG_WORDS, oximetry_caveats
+
     table = Table(title=f"Readings: {plan_name}", title_justify="left", pad_edge=False)
-    for col in ("Day", "Time", "Member", "Alt m", "SpO2", "Expected (range)", "HR /min", "LLS", "Flags"):
-        table.add_column(col)
+    for col in ("Day", "Member", "m", "SpO2", "Expected SpO2", "HR", "LLS", "Flags"):
+        table.add_column(col, overflow="fold")
     for r in rows:
-        e = r["expected_sao2_pct"]
+        e = r["expected_spo2_pct"]
         ll = r["lake_louise"]
         lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
-        table.add_row(str(r["day"]), f"{int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}", r["member"],
-                      f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
-                      f"{e['central']:.0f} % ({e['low']:.0f}-{e['high']:.0f})"
-                      + ("" if e.get("model_valid", True) else " ?"),
+        when = f"{r['day']} {int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}"
+        table.add_row(when, r["member"], f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
+                      f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})"
+                      + ("" if r["expected_sao2_pct"].get("model_valid", True) else " ?"),
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
-                      lls, ", ".join(f["code"] for f in r["flags"]) or "-")
+                      lls, ", ".join(FLAG_WORDS.get(f["code"], f["code"]) for f in r["flags"]) or "-")
     out = [table if rows else Text("No observations in this plan.")]
+    if rows:
+        out.append(Text("Day and clock time; m: altitude; SpO2 and expected SpO2 in %, central value and "
+                        "range; HR: heart rate /min; LLS: 2018 Lake Louise score; AMS: acute mountain sickness; "
+                        "HAPE: high-altitude pulmonary oedema.", style="dim"))
+    for r in rows:
+        for a in r.get("actions", []):
+            out.append(Text(f"ACTION day {r['day']} {r['member']}: {a['action']} [{a['source']}]", style="bold"))
     for r in rows:
         for f in r["flags"]:
             line = f"Day {r['day']} {r['member']}: {f['message']}"
             if "recommendation" in f:
                 line += f" Recommendation: {f['recommendation']}"
             out.append(Text(f"- {line} [{f['source']}]"))
+    if any(r["spo2_pct"] is not None for r in rows):
+        c = oximetry_caveats()
+        out.append(Text(f"{c['text']} [{c['source']}]", style="dim"))
     out += [Text(n, style="dim") for n in notes]
     return out
 

@@ -537,6 +537,26 @@ class LakeLouise(_Model):
     dizziness: _LLS_ITEM = Field(description="Dizziness or light-headedness, 0-3.")
 
 
+HapeSymptom = Literal["dyspnoea_at_rest", "cough", "weakness", "chest_tightness"]
+HapeSign = Literal["crackles", "central_cyanosis", "tachypnoea", "tachycardia"]
+_WORD_ALIASES = {"dyspnea_at_rest": "dyspnoea_at_rest", "tachypnea": "tachypnoea",
+                 "decreased_exercise_performance": "weakness", "chest_congestion": "chest_tightness",
+                 "wheezing": "crackles", "cyanosis": "central_cyanosis"}
+
+
+def _words(value):
+    """Symptom and sign words: case, spaces and hyphens do not matter; US spellings accepted."""
+    if not isinstance(value, list):
+        return value
+    out = []
+    for v in value:
+        if isinstance(v, str):
+            k = re.sub(r"[\s\-]+", "_", v.strip().lower())
+            v = _WORD_ALIASES.get(k, k)
+        out.append(v)
+    return out
+
+
 class Observation(_Model):
     """A reading taken on the expedition: SpO2, heart rate and/or a Lake Louise score."""
 
@@ -556,13 +576,23 @@ class Observation(_Model):
         None, alias="heart_rate", description="Resting heart rate. [/min]")
     lake_louise: Optional[Union[LakeLouise, Annotated[StrictInt, Field(ge=0, le=12)]]] = Field(
         None, description="2018 Lake Louise AMS score: the four items, or the total (0-12) alone.")
+    symptoms: Annotated[list[HapeSymptom], BeforeValidator(_words)] = Field(
+        default_factory=list, description="Symptoms of the consensus definition of high-altitude "
+        "pulmonary oedema present at the reading: dyspnoea_at_rest, cough, weakness (or decreased "
+        "exercise performance), chest_tightness (or congestion).")
+    signs: Annotated[list[HapeSign], BeforeValidator(_words)] = Field(
+        default_factory=list, description="Signs of that definition found on examination: crackles "
+        "(or wheezing, in at least one lung field), central_cyanosis, tachypnoea, tachycardia "
+        "(also taken from a heart rate above 100 /min).")
     note: Optional[StrictStr] = Field(None, description="Free text.")
 
     @model_validator(mode="after")
     def _something(self):
-        if self.spo2 is None and self.heart_rate_per_min is None and self.lake_louise is None:
-            raise _Problem("a reading needs at least one of 'spo2', 'heart_rate' or 'lake_louise'.",
-                           expected="spo2, heart_rate or lake_louise", value=None)
+        if (self.spo2 is None and self.heart_rate_per_min is None and self.lake_louise is None
+                and not self.symptoms and not self.signs):
+            raise _Problem("a reading needs at least one of 'spo2', 'heart_rate', 'lake_louise', "
+                           "'symptoms' or 'signs'.",
+                           expected="spo2, heart_rate, lake_louise, symptoms or signs", value=None)
         return self
 
 

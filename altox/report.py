@@ -303,6 +303,16 @@ def _people_extras(result) -> list[str]:
                 f"<li><strong>Day {r['day']} {_e(r['member'])}:</strong> {_e(f['message'])}"
                 + (f" <em>{_e(f['recommendation'])}</em>" if "recommendation" in f else "")
                 + f" <span class=\"note\">[{_e(f['source'])}]</span></li>" for r, f in flagged) + "</ul>")
+        acts = [(r, a) for r in readings for a in r.get("actions", [])]
+        if acts:
+            parts.append('<ul class="plain">' + "".join(
+                f"<li><strong>Action, day {r['day']} {_e(r['member'])}:</strong> {_e(a['action'])}"
+                f" <span class=\"note\">[{_e(a['source'])}]</span></li>" for r, a in acts) + "</ul>")
+        if any(r["spo2_pct"] is not None for r in readings):
+            from .readings import oximetry_caveats
+
+            cav = oximetry_caveats()
+            parts.append(f'<p class="note">{_e(cav["text"])} [{_e(cav["source"])}]</p>')
     fit = result.extras.get("fitness_to_fly")
     if fit:
         from .cli_people import fitness_lines

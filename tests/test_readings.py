@@ -60,8 +60,9 @@ def test_demo_trek_alarming_reading(reviewed):
     assert len(alarm) == 1
     a = alarm[0]
     assert a["member"] == "Joren Pask" and a["day"] == 8 and a["ascent_continues"]
-    assert {f["code"] for f in a["flags"]} == {"spo2-below-range", "ams", "ams-low-spo2-ascent"}
-    assert a["spo2_pct"] < a["expected_sao2_pct"]["low"]
+    assert {"spo2-below-range", "ams", "ams-low-spo2-ascent", "hape-suspected"} <= {f["code"] for f in a["flags"]}
+    assert a["spo2_pct"] < a["expected_spo2_pct"]["low"] < a["expected_sao2_pct"]["low"]
+    assert any("descend" in x["action"] for x in a["actions"])
     combined = next(f for f in a["flags"] if f["code"] == "ams-low-spo2-ascent")
     assert "do not ascend further" in combined["recommendation"].lower()
     assert "descend" in combined["recommendation"] and "Wilderness Medical Society" in combined["source"]
@@ -73,7 +74,7 @@ def test_demo_trek_other_readings_within_range(reviewed):
     assert len(quiet) >= 4
     for r in quiet:
         if r["spo2_pct"] is not None:
-            assert r["expected_sao2_pct"]["low"] <= r["spo2_pct"]
+            assert r["expected_spo2_pct"]["low"] <= r["spo2_pct"]
 
 
 def test_review_refuses_flights():
@@ -134,3 +135,103 @@ def test_fitness_command_json_and_errors():
                  ["fitness-to-fly", "profiles/trek-teskavor.yaml"]):
         res = CliRunner().invoke(_app(), args)
         assert res.exit_code == 2, (args, res.output)
+
+
+# -- a medic's review: expected SpO2 range, published levels, pulmonary oedema ------------------------------------
+_MEDIC = """kind: expedition
+name: medic check at 3,500 m
+start_altitude: 300 m
+party:
+  - {name: Ada, age: 35}
+  - {name: Ben, age: 30, history: [hape]}
+  - {name: Cy, age: 40}
+days:
+  - {day: 1, sleep: 3500 m}
+  - {day: 2, sleep: 3500 m}
+  - {day: 3, sleep: 3500 m}
+  - {day: 4, sleep: 3500 m}
+  - {day: 5, sleep: 3500 m}
+  - {day: 6, sleep: 3900 m}
+observations:
+  - {day: 2, member: Ada, spo2: 80 %}
+  - {day: 2, member: Ben, spo2: 66 %, heart_rate: 118 /min, lake_louise: 5, symptoms: [dyspnoea at rest, cough]}
+  - {day: 2, member: Cy, spo2: 89 %}
+  - {day: 5, member: Ada, spo2: 90 %}
+"""
+
+
+@pytest.fixture(scope="module")
+def medic():
+    plan = load_plan_text(_MEDIC)
+    return {(r["day"], r["member"]): r for r in readings.review(plan, None, population.expected_range(plan))}
+
+
+def test_awake_80_pct_at_3500_m_day_2_is_flagged(medic):
+    # Published resting SpO2 at about 3,500 m in the first days are means of 88.5-93 % (see
+    # tests/reference_data/spo2_altitude.csv); 80 % with no symptoms lies below the expected SpO2 range.
+    r = medic[(2, "Ada")]
+    assert not r["sleeping"] and r["spo2_pct"] == 80.0
+    assert [f["code"] for f in r["flags"]] == ["spo2-below-range"]
+    assert r["actions"] and "Recheck" in r["actions"][0]["action"]
+
+
+def test_90_pct_on_day_5_is_not_flagged(medic):
+    r = medic[(5, "Ada")]
+    assert r["flags"] == [] and r["actions"] == []
+
+
+def test_hape_history_66_pct_raises_suspected_hape_with_wms_actions(medic):
+    # Lake Louise consensus definition (Hackett & Roach, N Engl J Med 2001;345:107-114): two symptoms
+    # (dyspnoea at rest, cough) and one sign (tachycardia, HR 118 > 100 /min, common practice): partly met;
+    # with SpO2 >= 10 points below expectation (Goyal, Medscape 2020: 10-20 points) and a HAPE history:
+    # suspected.  Actions of the WMS 2019 guidelines (descend, oxygen to SpO2 > 90 %).
+    r = medic[(2, "Ben")]
+    assert r["hape"]["partly_met"] and not r["hape"]["met"] and r["hape"]["suspected"]
+    assert r["hape"]["signs"] == ["tachycardia"]
+    codes = {f["code"] for f in r["flags"]}
+    assert {"hape-suspected", "spo2-well-below-expected", "spo2-below-party", "spo2-low-accuracy"} <= codes
+    action = r["actions"][0]
+    assert "descend" in action["action"] and "above 90 %" in action["action"]
+    assert "Wilderness Medical Society" in action["source"] and "2019" in action["source"]
+    # the same person without the history is not raised from partial criteria
+    plan = load_plan_text(_MEDIC.replace("history: [hape]", "history: []"))
+    rows = readings.review(plan, None, population.expected_range(plan, n=100))
+    ben = next(x for x in rows if x["member"] == "Ben")
+    assert not ben["hape"]["suspected"] and "hape-partial" in {f["code"] for f in ben["flags"]}
+
+
+@pytest.mark.parametrize("symptoms, signs, hr, met, partly", [
+    (["dyspnoea_at_rest", "cough"], ["crackles", "central_cyanosis"], None, True, False),  # 2 + 2: met
+    (["cough"], ["crackles", "tachypnoea"], None, False, True),                            # 1 + 2: partly
+    (["cough", "weakness"], ["crackles"], 101, True, False),                               # HR > 100: tachycardia
+    (["cough", "weakness"], ["crackles"], 100, False, True),                               # 100 is not above 100
+    (["cough"], [], None, False, False),
+], ids=["HackettRoach2001-met", "HackettRoach2001-partly", "tachycardia-above-100",
+        "tachycardia-not-at-100", "one-item"])
+def test_hape_consensus_counts(symptoms, signs, hr, met, partly):
+    # Hackett PH, Roach RC. N Engl J Med 2001;345:107-114: at least two symptoms and two signs.
+    r = readings.hape_criteria(symptoms, signs, hr)
+    assert (r["met"], r["partly_met"]) == (met, partly)
+
+
+@pytest.mark.parametrize("sao2, precision", [(99.0, 2.0), (83.0, 2.0), (55.0, 5.0), (40.0, 5.0), (69.0, 3.5)],
+                         ids=["Hannhart1991-high", "Hannhart1991-83", "Hannhart1991-55", "below-55-held",
+                              "interpolated"])
+def test_oximeter_error_knots(sao2, precision):
+    # Hannhart B et al. Eur Respir J 1991;4:115-119 (abstract): precision below 3 % above SaO2 83 %
+    # (2 points used, common practice), up to 5 % in deeper hypoxia down to 55 %; linear in between.
+    assert readings.oximeter_error(sao2)[1] == pytest.approx(precision)
+
+
+def test_expected_spo2_range_is_wider_than_sao2_range():
+    r = readings.expected_spo2_range(85.0, 78.0, 90.0)
+    assert r["low"] < 78.0 and r["high"] > 90.0 and r["central"] == 85.0
+
+
+def test_symptom_words_and_errors():
+    ok = load_plan_text(_PLAN.replace("OBS", "{day: 2, member: Pia, symptoms: [Dyspnea at rest, chest-tightness], "
+                                             "signs: [tachypnea]}"))
+    assert ok.observations[0].symptoms == ["dyspnoea_at_rest", "chest_tightness"]
+    assert ok.observations[0].signs == ["tachypnoea"]
+    with pytest.raises(ProfileError, match="symptoms"):
+        load_plan_text(_PLAN.replace("OBS", "{day: 2, member: Pia, symptoms: [sneezing]}"))
