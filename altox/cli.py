@@ -48,6 +48,20 @@ def _root(debug: bool = typer.Option(False, "--debug", help="Show tracebacks of 
     _DEBUG["on"] = debug
 
 
+#: largest --seed accepted (numpy's generators take any non-negative integer; 2**32 - 1 keeps it typable)
+MAX_SEED = 2**32 - 1
+
+
+def check_seed(seed) -> None:
+    """Refuse a --seed outside 0 to :data:`MAX_SEED` (numpy refuses negative seeds)."""
+    from .errors import OutOfRangeError
+
+    if seed is not None and not 0 <= seed <= MAX_SEED:
+        raise OutOfRangeError(f"--seed: {seed} is outside the accepted range; expected a whole number "
+                              f"from 0 to {MAX_SEED:,}.", field="--seed", value=seed,
+                              expected=f"0 to {MAX_SEED:,}")
+
+
 def _parse_number(text, option: str, lo: float, hi: float, unit: str = ""):
     from .errors import UnitError
 
@@ -121,7 +135,7 @@ def point(
         if json_out:
             typer.echo(render.to_json(result))
             return
-        from rich.console import Console
+        from .terminal import console as Console
 
         exposure = ("acute exposure (first hours)" if opts["days"] == 0
                     else f"{opts['days']:g} days at this altitude")
@@ -206,6 +220,7 @@ def plan(
 
     if not 0 <= members <= 100_000:
         _fail(f"--members: {members} is outside the accepted range; expected 0 to 100,000.")
+    run_guarded(lambda: check_seed(seed))
     results, plans, failed = [], [], []
     for path in files:
         try:
@@ -223,7 +238,7 @@ def plan(
         rows = [row for r in results for row in render.plan_csv_rows(r, timeline=timeline)]
         typer.echo(render.to_csv(rows), nl=False)
     else:
-        from rich.console import Console
+        from .terminal import console as Console
 
         console = Console()
         for r in results:
@@ -238,15 +253,35 @@ def plan(
             rule_files = [r for r in rules if _is_file(r)]
             rule_sets, _missing = applied_rule_sets(results[0], rule_files)
             if chart:
-                save_chart(results[0], chart, feet=feet, rule_sets=rule_sets)
+                with _write_errors("--chart", chart):
+                    save_chart(results[0], chart, feet=feet, rule_sets=rule_sets)
                 typer.echo(f"altox: wrote chart {chart}", err=True)
             if report:
-                write_report(results[0], report, plan=plans[0], feet=feet, rule_sets=rule_sets)
+                with _write_errors("--report", report):
+                    write_report(results[0], report, plan=plans[0], feet=feet, rule_sets=rule_sets)
                 typer.echo(f"altox: wrote report {report}", err=True)
         run_guarded(write_outputs)
     if failed:
         typer.echo(f"Error: {len(failed)} of {len(files)} plan(s) failed: {', '.join(failed)}", err=True)
         raise typer.Exit(2)
+
+
+class _write_errors:
+    """Context manager: an OSError while writing an output file becomes one message naming the option."""
+
+    def __init__(self, option: str, path: str):
+        self.option, self.path = option, path
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, kind, exc, tb):
+        if exc is not None and isinstance(exc, OSError):
+            reason = exc.strerror or type(exc).__name__
+            raise AltoxError(f"{self.option}: cannot write {self.path!r}: {reason} (nothing was written); "
+                             "expected a writable folder with free space.", field=self.option,
+                             value=self.path) from None
+        return False
 
 
 @app.command()

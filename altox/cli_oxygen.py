@@ -66,7 +66,7 @@ def _fraction(text, option):
 
 
 def _print(renderables):
-    from rich.console import Console
+    from .terminal import console as Console
 
     console = Console(width=80)
     for r in renderables:

@@ -23,7 +23,7 @@ def _progress_callback():
     """(callback, close) for the ensemble: a rich bar on a terminal, nothing when piped."""
     if not sys.stderr.isatty():
         return None, lambda: None
-    from rich.console import Console
+    from .terminal import console as Console
     from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
     bar = Progress(TextColumn("expected range"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
@@ -52,7 +52,10 @@ def _plan_and_ranges(file, members, seed):
     from .evaluate import evaluate_plan
     from .profile import load_plan
 
+    from .cli import check_seed
+
     _check_members(members)
+    check_seed(seed)
     plan = load_plan(file)
     result = evaluate_plan(plan)
     return plan, result, _ranges(plan, result, members, seed)
@@ -148,7 +151,7 @@ def readings_cmd(
                                              "readings": rows, "notes": ranges["notes"],
                                              "caution": CAUTION + " " + GENERAL}), indent=2))
             return
-        from rich.console import Console
+        from .terminal import console as Console
 
         from .render import caution_panel
 
@@ -181,7 +184,7 @@ def range_cmd(
                                              "percentiles": ranges["percentiles"], "people": people,
                                              "notes": ranges["notes"], "caution": CAUTION}), indent=2))
             return
-        from rich.console import Console
+        from .terminal import console as Console
         from rich.table import Table
 
         from .render import caution_panel

@@ -398,6 +398,9 @@ def _rule_id(value) -> str:
 def _nonblank(value):
     if isinstance(value, str) and not value.strip():
         raise _Problem("the text is blank; expected a name.", expected="non-empty text")
+    if isinstance(value, str) and ("\n" in value or "\t" in value):
+        raise _Problem(f"the name {value!r} spans lines or holds a tab; expected a name on one line.",
+                       expected="a name on one line")
     return value
 
 
@@ -716,13 +719,32 @@ class _PlanBase(_Model):
                            loc=("sample_every",), expected="a coarser sample_every")
 
 
+#: Cyrillic and Greek letters drawn like Latin ones (the common look-alikes; a name mixing them would
+#: print exactly like another)
+_LOOKALIKES = str.maketrans("АВЕКМНОРСТХаеорсухіјѕԁԛԝΑΒΕΖΗΙΚΜΝΟΡΤΥΧον",
+                            "ABEKMHOPCTXaeopcyxijsdqwABEZHIKMNOPTYXov")
+
+
+def _shown_as(name: str) -> str:
+    """What a name looks like on a page: compatibility forms folded (NFKC), look-alike letters mapped to
+    Latin, runs of spaces and spaces at the ends ignored."""
+    import unicodedata
+
+    folded = unicodedata.normalize("NFKC", name).translate(_LOOKALIKES)
+    return " ".join(folded.split())
+
+
 def _unique_names(people, key: str):
     seen: dict[str, int] = {}
     for i, person in enumerate(people):
-        if person.name in seen:
-            raise _Problem(f"the name {person.name!r} is used twice (also {key}[{seen[person.name]}]); "
-                           "expected unique names.", loc=(key, i, "name"), expected="unique names")
-        seen[person.name] = i
+        shown = _shown_as(person.name)
+        if shown in seen:
+            j = seen[shown]
+            other = people[j].name
+            same = "is used twice" if other == person.name else f"reads the same as {other!r}"
+            raise _Problem(f"the name {person.name!r} {same} (also {key}[{j}]); expected names that can be "
+                           "told apart on paper.", loc=(key, i, "name"), expected="unique names")
+        seen[shown] = i
 
 
 class ExpeditionPlan(_PlanBase):
@@ -1230,7 +1252,7 @@ def plan_from_data(data, path: str = "<data>", positions: PositionMap | None = N
              "'kind: flight' at the top of the plan.", loc=("kind",),
              expected="kind: expedition or kind: flight")
     kind = data["kind"]
-    if kind not in _KINDS:
+    if not isinstance(kind, str) or kind not in _KINDS:
         fail(f"kind: {_show(kind)} is not a plan kind.{_suggest(kind, list(_KINDS))} Expected "
              "'expedition' or 'flight'.", loc=("kind",), value=kind, expected="expedition or flight")
     model = _KINDS[kind]

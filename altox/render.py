@@ -84,8 +84,23 @@ def to_csv(rows: list[dict]) -> str:
     writer = csv.DictWriter(buf, fieldnames=keys, lineterminator="\n")
     writer.writeheader()
     for row in rows:
-        writer.writerow({k: _clean(row.get(k)) for k in keys})
+        writer.writerow({k: _csv_cell(_clean(row.get(k))) for k in keys})
     return buf.getvalue()
+
+
+#: first characters that make a spreadsheet read a cell as a formula (OWASP, "CSV injection")
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "|", "%")
+
+
+def _csv_cell(value):
+    """A text cell a spreadsheet would run as a formula gets a leading apostrophe; numbers stay numbers."""
+    if isinstance(value, str) and value.startswith(_FORMULA_START):
+        try:
+            float(value)
+            return value
+        except ValueError:
+            return "'" + value
+    return value
 
 
 def caution_panel():

@@ -24,6 +24,7 @@ from __future__ import annotations
 import os
 import re
 import stat
+import unicodedata
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -136,7 +137,7 @@ def _fail(path, line, column, message, *, field=None, value=None, expected=None)
                        field=field, value=value, expected=expected)
 
 
-def read_plan_text(path) -> str:
+def read_plan_text(path, *, noun: str = "plan", max_bytes: int = MAX_PLAN_BYTES) -> str:
     """Read a plan file as UTF-8 text, refusing anything that is not a small text file.
 
     The file is opened read-only; nothing is ever written to it.
@@ -159,37 +160,38 @@ def read_plan_text(path) -> str:
     """
     name = os.fspath(path)
     expected = "a UTF-8 YAML text file"
+    example = " (e.g. profiles/trek-teskavor.yaml)" if noun == "plan" else ""
     try:
         st = os.stat(name)
     except FileNotFoundError:
-        _fail(name, None, None, "no such plan file; expected the path of a YAML plan file.",
+        _fail(name, None, None, f"no such {noun} file; expected the path of a YAML {noun} file.",
               value=name, expected=expected)
     except OSError as exc:
-        _fail(name, None, None, f"cannot read the plan file ({exc.strerror}); expected a readable "
-              "YAML plan file.", value=name, expected=expected)
+        _fail(name, None, None, f"cannot read the {noun} file ({exc.strerror}); expected a readable "
+              f"YAML {noun} file.", value=name, expected=expected)
     if stat.S_ISDIR(st.st_mode):
-        _fail(name, None, None, "this is a directory, not a plan file; expected the path of a YAML "
-              "plan file (e.g. profiles/trek-teskavor.yaml).", value=name, expected=expected)
+        _fail(name, None, None, f"this is a directory, not a {noun} file; expected the path of a YAML "
+              f"{noun} file{example}.", value=name, expected=expected)
     if not stat.S_ISREG(st.st_mode):
         _fail(name, None, None, "this is not a regular file (a device, pipe or socket); expected a "
-              "YAML plan file.", value=name, expected=expected)
-    if st.st_size > MAX_PLAN_BYTES:
-        _fail(name, None, None, f"the file is {st.st_size:,} bytes, over the {MAX_PLAN_BYTES:,}-byte "
-              "limit for plan files; a plan is a few kilobytes of YAML, so this is probably not one.",
-              value=st.st_size, expected=f"at most {MAX_PLAN_BYTES:,} bytes")
+              f"YAML {noun} file.", value=name, expected=expected)
+    if st.st_size > max_bytes:
+        _fail(name, None, None, f"the file is {st.st_size:,} bytes, over the {max_bytes:,}-byte "
+              f"limit for {noun} files; a {noun} file is a few kilobytes of YAML, so this is probably not one.",
+              value=st.st_size, expected=f"at most {max_bytes:,} bytes")
     try:
         with open(name, "rb") as fh:
-            data = fh.read(MAX_PLAN_BYTES + 1)
+            data = fh.read(max_bytes + 1)
     except OSError as exc:
-        _fail(name, None, None, f"cannot read the plan file ({exc.strerror}); expected a readable "
-              "YAML plan file.", value=name, expected=expected)
-    if len(data) > MAX_PLAN_BYTES:  # grew since stat
-        _fail(name, None, None, f"the file is over the {MAX_PLAN_BYTES:,}-byte limit for plan files.",
-              value=len(data), expected=f"at most {MAX_PLAN_BYTES:,} bytes")
-    return decode_plan_bytes(data, name)
+        _fail(name, None, None, f"cannot read the {noun} file ({exc.strerror}); expected a readable "
+              f"YAML {noun} file.", value=name, expected=expected)
+    if len(data) > max_bytes:  # grew since stat
+        _fail(name, None, None, f"the file is over the {max_bytes:,}-byte limit for {noun} files.",
+              value=len(data), expected=f"at most {max_bytes:,} bytes")
+    return decode_plan_bytes(data, name, noun=noun)
 
 
-def decode_plan_bytes(data: bytes, path: str = "<bytes>") -> str:
+def decode_plan_bytes(data: bytes, path: str = "<bytes>", *, noun: str = "plan") -> str:
     """Decode plan bytes as UTF-8, with located errors for binary and mis-encoded input.
 
     Parameters
@@ -219,7 +221,7 @@ def decode_plan_bytes(data: bytes, path: str = "<bytes>") -> str:
     if nul >= 0:
         line, col = _line_col_of_index(data, nul)
         _fail(path, line, col, f"the file contains a NUL byte at byte {nul}, so it is binary, not a "
-              "YAML plan; expected a UTF-8 text file.", value=data[max(0, nul - 8):nul + 8],
+              f"YAML {noun} file; expected a UTF-8 text file.", value=data[max(0, nul - 8):nul + 8],
               expected=expected)
     try:
         text = data.decode("utf-8")
@@ -230,8 +232,9 @@ def decode_plan_bytes(data: bytes, path: str = "<bytes>") -> str:
               f"({exc.reason}); expected a UTF-8 text file (re-save it as UTF-8).",
               value=bad, expected=expected)
     if not text.strip():
-        _fail(path, None, None, "the plan file is empty; expected a YAML mapping starting with "
-              "'kind: expedition' or 'kind: flight'.", value="", expected="a YAML mapping")
+        _fail(path, None, None, f"the {noun} file is empty; expected a YAML mapping"
+              + (" starting with 'kind: expedition' or 'kind: flight'." if noun == "plan" else "."),
+              value="", expected="a YAML mapping")
     return text
 
 
@@ -251,9 +254,32 @@ _resolver = Resolver()
 _constructor = SafeConstructor()
 
 
-def _scalar_value(event, path, here=()):
+def _unprintable(text: str):
+    """The first character a terminal would act on or hide (controls other than tab and newline, and
+    invisible format characters such as bidirectional overrides and zero-width spaces), or None."""
+    for ch in text:
+        if ch in "\t\n":
+            continue
+        if unicodedata.category(ch) in ("Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"):
+            return ch
+    return None
+
+
+def _check_printable(text: str, path, line, col, here, noun):
+    if text.isascii() and text.isprintable():
+        return
+    ch = _unprintable(text)
+    if ch is not None:
+        name = unicodedata.name(ch, "a control character")
+        _fail(path, line, col, f"{_prefix(here)}the text contains U+{ord(ch):04X} ({name.lower()}), which a "
+              "terminal would act on or hide; expected printable text (letters, digits, punctuation, spaces).",
+              field=_field(here), value=f"U+{ord(ch):04X}", expected="printable text")
+
+
+def _scalar_value(event, path, here=(), noun="plan"):
     tag = event.tag
     line, col = event.start_mark.line + 1, event.start_mark.column + 1
+    _check_printable(event.value, path, line, col, here, noun)
     if tag is None or tag == "!":
         if tag is None and event.implicit[0]:
             tag = _resolver.resolve(ScalarNode, event.value, (True, False))
@@ -264,18 +290,29 @@ def _scalar_value(event, path, here=()):
             return event.value
     elif tag not in _SCALAR_TAGS:
         _fail(path, line, col, f"{_prefix(here)}the YAML tag {_short_tag(event.tag)!r} is not "
-              "allowed in plan files, which hold only plain text, numbers, true/false, null, "
+              f"allowed in {noun} files, which hold only plain text, numbers, true/false, null, "
               "mappings and lists; remove the tag.", field=_field(here), value=event.value,
               expected="an untagged value")
     node = ScalarNode(tag, event.value, event.start_mark, event.end_mark)
+    kind = tag[len(_Y):]
+    if kind == "str":
+        return event.value
+    shown = event.value if len(event.value) <= 40 else event.value[:37] + "..."
     try:
-        kind = tag[len(_Y):]
-        if kind == "str":
-            return event.value
-        return getattr(_constructor, f"construct_yaml_{kind}")(node)
-    except (ValueError, TypeError, yaml.YAMLError):
-        _fail(path, line, col, f"{_prefix(here)}{event.value!r} cannot be read as "
-              f"{tag[len(_Y):]}.", field=_field(here), value=event.value, expected=tag[len(_Y):])
+        value = getattr(_constructor, f"construct_yaml_{kind}")(node)
+        if kind == "null" and event.value not in ("", "~", "null", "Null", "NULL"):
+            raise ValueError(event.value)
+        if isinstance(value, int) and not isinstance(value, bool):
+            float(value)  # an integer beyond any float (OverflowError) is no number a plan can use
+    except OverflowError:
+        _fail(path, line, col, f"{_prefix(here)}the number {shown!r} is too large; expected a number of "
+              f"ordinary size (every number in a {noun} file is well below 1e300).", field=_field(here),
+              value=shown, expected="a number below 1e300")
+    except Exception:  # PyYAML's constructors fail in many ways on odd text under an explicit tag
+        _fail(path, line, col, f"{_prefix(here)}{shown!r} cannot be read as {_short_tag(tag)}; expected "
+              f"a value of that type, or the value without its tag.", field=_field(here), value=shown,
+              expected=kind)
+    return value
 
 
 _SPLIT_TAIL_RE = re.compile(r"^\d{3}(?:[.,]\d+)*\s*[^\d\s,]")
@@ -297,7 +334,7 @@ def _check_comma_split(top, event, path, positions):
           field=format_path(loc), value=joined, expected=f'"{joined}"')
 
 
-def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
+def parse_yaml(text: str, path: str = "<string>", *, noun: str = "plan") -> tuple[object, PositionMap]:
     """Parse one YAML document into plain data, recording where every value was written.
 
     Parameters
@@ -323,7 +360,7 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
     """
     if len(text) > MAX_PLAN_BYTES:
         _fail(path, None, None, f"the plan text is {len(text):,} characters, over the "
-              f"{MAX_PLAN_BYTES:,} limit for plan files.", value=len(text),
+              f"{MAX_PLAN_BYTES:,} limit for {noun} files.", value=len(text),
               expected=f"at most {MAX_PLAN_BYTES:,} characters")
     positions = PositionMap()
     # stack entries: [container, loc, pending_key or None, key_mark, flow style?, last int value]
@@ -363,7 +400,7 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
                 documents += 1
                 if documents > 1:
                     _fail(path, *line_col, "the file holds more than one YAML document ('---'); "
-                          "expected exactly one plan per file.", value="---",
+                          f"expected exactly one {noun} per file.", value="---",
                           expected="one YAML document")
                 continue
             if isinstance(event, (yaml.StreamStartEvent, yaml.StreamEndEvent, yaml.DocumentEndEvent)):
@@ -376,7 +413,7 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
                 else:
                     here = top[1] + ((top[2],) if top[2] is not None else ())
             if isinstance(event, yaml.AliasEvent):
-                _fail(path, *line_col, f"{_prefix(here)}the alias '*{event.anchor}' is not allowed: plan files may not "
+                _fail(path, *line_col, f"{_prefix(here)}the alias '*{event.anchor}' is not allowed: {noun} files may not "
                       "use anchors or aliases (they can expand without limit); write the value out.",
                       field=_field(here), value="*" + str(event.anchor),
                       expected="a value written out in full")
@@ -385,12 +422,16 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
                 continue
             anchor = getattr(event, "anchor", None)
             if anchor is not None:
-                _fail(path, *line_col, f"{_prefix(here)}the anchor '&{anchor}' is not allowed: plan "
+                _fail(path, *line_col, f"{_prefix(here)}the anchor '&{anchor}' is not allowed: {noun} "
                       "files may not use anchors or aliases; write each value out.",
                       field=_field(here), value="&" + str(anchor),
                       expected="a value without an anchor")
             if stack and stack[-1][4] and isinstance(event, yaml.ScalarEvent):
-                _check_comma_split(stack[-1], event, path, positions)
+                # in a mapping the tail of a split value arrives as the next key; a value after a key
+                # never is one (the previous sibling's number belongs to another field)
+                if isinstance(stack[-1][0], list) or want_key(event):
+                    _check_comma_split(stack[-1], event, path, positions)
+                stack[-1][5] = None if want_key(event) else stack[-1][5]
             if want_key(event):
                 if not isinstance(event, yaml.ScalarEvent):
                     _fail(path, *line_col, f"a mapping key in {format_path(stack[-1][1])} is a "
@@ -403,8 +444,9 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
                           value=event.value, expected="a field name")
                 key = event.value
                 loc = stack[-1][1]
+                _check_printable(key, path, *line_col, loc, noun)
                 if key == "<<" and event.implicit[0]:
-                    _fail(path, *line_col, f"merge keys ('<<') are not allowed in plan files "
+                    _fail(path, *line_col, f"merge keys ('<<') are not allowed in {noun} files "
                           f"(in {format_path(loc)}); write the fields out.", field=format_path(loc),
                           value="<<", expected="a field name")
                 if key in stack[-1][0]:
@@ -416,7 +458,7 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
                 stack[-1][3] = line_col
                 continue
             if isinstance(event, yaml.ScalarEvent):
-                value = _scalar_value(event, path, here)
+                value = _scalar_value(event, path, here, noun)
                 child = add(value, line_col)
                 if stack:
                     plain_int = (event.tag is None and event.implicit[0] and isinstance(value, int)
@@ -426,14 +468,14 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
                 is_map = isinstance(event, yaml.MappingStartEvent)
                 if event.tag not in (_MAP_TAGS if is_map else _SEQ_TAGS):
                     _fail(path, *line_col, f"{_prefix(here)}the YAML tag "
-                          f"{_short_tag(event.tag)!r} is not allowed in plan files, which hold "
+                          f"{_short_tag(event.tag)!r} is not allowed in {noun} files, which hold "
                           "only plain text, numbers, true/false, null, mappings and lists; remove "
                           "the tag.", field=_field(here),
                           value=event.tag,
                           expected="an untagged mapping or list")
                 if len(stack) >= MAX_DEPTH:
                     _fail(path, *line_col, f"the YAML is nested more than {MAX_DEPTH} levels deep; "
-                          "a plan needs four or five.", value=len(stack),
+                          f"a {noun} file needs four or five.", value=len(stack),
                           expected=f"at most {MAX_DEPTH} levels")
                 container = {} if is_map else []
                 loc = add(container, line_col)
@@ -458,8 +500,8 @@ def parse_yaml(text: str, path: str = "<string>") -> tuple[object, PositionMap]:
     except yaml.YAMLError as exc:  # pragma: no cover - other parser failures
         _fail(path, None, None, f"YAML error: {exc}; expected valid YAML.", expected="valid YAML")
     if root is _NOTHING:
-        _fail(path, None, None, "the plan file holds no YAML data (only comments or blank lines); "
-              "expected a mapping starting with 'kind: expedition' or 'kind: flight'.",
+        _fail(path, None, None, f"the {noun} file holds no YAML data (only comments or blank lines); "
+              "expected a YAML mapping.",
               value="", expected="a YAML mapping")
     return root, positions
 

@@ -26,11 +26,9 @@ from importlib import resources
 from pathlib import Path
 from typing import Literal, Optional
 
-import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from ..errors import AltoxError, ProfileError
-from ..yamlload import FAST_SAFE_LOADER
 from ..units import H_PER_DAY, parse_quantity
 
 Basis = Literal["read", "from memory", "common practice", "local"]  # the last two for users' own files
@@ -146,7 +144,9 @@ class Threshold(_Strict):
         match = _DURATION_RE.match(text)
         if not match:
             raise ValueError(f"duration {text!r} must read 'more than <time>', e.g. 'more than 30 min'")
-        parse_quantity(match.group("q"), "duration", field="duration")
+        hours = parse_quantity(match.group("q"), "duration", field="duration")
+        if not math.isfinite(hours) or hours <= 0:
+            raise ValueError(f"duration {text!r} must be a finite time above zero, e.g. 'more than 30 min'")
         return text
 
     @model_validator(mode="after")
@@ -333,19 +333,10 @@ def available_rule_sets() -> list[str]:
                   if entry.name.endswith(".yaml"))
 
 
-def _node_at(node, loc):
-    """The YAML node at a pydantic error location, or the deepest one found on the way."""
-    for key in loc:
-        if isinstance(node, yaml.MappingNode):
-            nxt = next((v for k, v in node.value if getattr(k, "value", None) == key), None)
-        elif isinstance(node, yaml.SequenceNode) and isinstance(key, int) and key < len(node.value):
-            nxt = node.value[key]
-        else:
-            nxt = None
-        if nxt is None:
-            break
-        node = nxt
-    return node
+#: Largest rule file accepted, in bytes (256 KiB); the shipped rule sets are 3-7 KB each.
+MAX_RULE_BYTES = 256 * 1024
+#: Longest message shown for one problem of a rule file, in characters (longer ones are cut).
+_MAX_PROBLEM_CHARS = 160
 
 
 def _field_name(loc) -> str:
@@ -355,38 +346,51 @@ def _field_name(loc) -> str:
     return out
 
 
+def _short(text: str, limit: int = _MAX_PROBLEM_CHARS) -> str:
+    text = " ".join(str(text).split())
+    return text if len(text) <= limit else text[:limit - 3] + "..."
+
+
 def _parse(text: str, path: str) -> RuleSet:
-    try:
-        root = yaml.compose(text, Loader=FAST_SAFE_LOADER)
-        data = yaml.load(text, Loader=FAST_SAFE_LOADER)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        line = mark.line + 1 if mark else None
-        col = mark.column + 1 if mark else None
-        where = f"{path}:{line}" if line else path
-        raise ProfileError(f"{where}: not valid YAML ({getattr(exc, 'problem', None) or exc})",
-                           path=path, line=line, column=col) from None
+    """Rule-file text -> RuleSet, through the plan reader's safe parser (no aliases, no duplicate keys,
+    only plain tags, located errors); the first problem is reported with a count of the rest."""
+    from ..yamlload import parse_yaml
+
+    data, positions = parse_yaml(text, path, noun="rule")
     if not isinstance(data, dict):
-        raise ProfileError(f"{path}: a rule file must be a YAML mapping with id, title, kind, "
-                           f"citation, caution and thresholds", path=path, line=1,
+        raise ProfileError(f"{path}:1:1: a rule file must be a YAML mapping with id, title, kind, "
+                           f"citation, caution and thresholds", path=path, line=1, column=1,
                            expected="a mapping")
     try:
         return RuleSet.model_validate(data)
     except ValidationError as exc:
         problems = []
-        first = None
-        for err in exc.errors(include_url=False):
-            loc = tuple(k for k in err["loc"] if k not in ("function-after",))
-            node = _node_at(root, loc)
-            line, col = node.start_mark.line + 1, node.start_mark.column + 1
+        errors = exc.errors(include_url=False)
+        missing = {}
+        for err in errors:
+            if err["type"] == "missing":
+                loc = tuple(k for k in err["loc"] if not str(k).startswith("function-"))
+                missing.setdefault(loc[:-1], []).append(str(loc[-1]))
+        for err in errors:
+            loc = tuple(k for k in err["loc"] if not str(k).startswith("function-"))
+            line, col = positions.locate(loc, prefer_key=err["type"] == "extra_forbidden")
             msg = err["msg"].removeprefix("Value error, ")
-            field = _field_name(loc) or "<file>"
-            problems.append(f"{path}:{line}: {field}: {msg}")
-            if first is None:
-                first = (line, col, field, err.get("input"))
-        line, col, field, value = first
-        raise ProfileError("; ".join(problems), path=path, line=line, column=col, field=field,
-                           value=value) from None
+            if err["type"] == "extra_forbidden":
+                close = difflib.get_close_matches(str(loc[-1]), missing.get(loc[:-1], []), n=1, cutoff=0.6)
+                msg = f"unknown key {loc[-1]!r}" + (f"; did you mean {close[0]!r}?" if close else "")
+            elif err["type"] == "literal_error" and "expected" in err.get("ctx", {}):
+                msg = f"{_short(repr(err.get('input')), 40)} is not accepted; expected {err['ctx']['expected']}"
+            problems.append((err["type"] == "missing", line or 10**9, col or 0, _field_name(loc) or "(top level)",
+                             _short(msg), err.get("input")))
+        # a missing key is often the echo of a misspelt one: the misspelling first, then by position
+        problems.sort(key=lambda p: p[:3])
+        _, line, col, field, msg, value = problems[0]
+        line, col = (None, None) if line == 10**9 else (line, col)
+        more = len(problems) - 1
+        tail = f" ({more} more problem{'s' if more > 1 else ''} in this rule file.)" if more else ""
+        where = path + (f":{line}:{col}" if line is not None else "")
+        raise ProfileError(f"{where}: {field}: {msg}{tail}", path=path, line=line, column=col, field=field,
+                           value=value if isinstance(value, (str, int, float, bool, type(None))) else None) from None
 
 
 @functools.lru_cache(maxsize=None)
@@ -428,9 +432,7 @@ def load_rule_set(id_or_path) -> RuleSet:
         raise AltoxError(f"unknown rule set {text!r}.{hint} Valid rule sets: {', '.join(valid)}; "
                          f"or give the path of a .yaml rule file.",
                          field="rule_set", value=text, expected=", ".join(valid))
-    path = Path(text)
-    try:
-        content = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise ProfileError(f"{text}: cannot read rule file ({exc.strerror or exc})", path=text) from None
-    return _parse(content, text)
+    from ..yamlload import read_plan_text
+
+    # a regular, small UTF-8 text file, or a located refusal (devices, pipes, huge files, legacy encodings)
+    return _parse(read_plan_text(text, noun="rule", max_bytes=MAX_RULE_BYTES), text)
