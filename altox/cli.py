@@ -6,6 +6,7 @@ from typing import Optional
 
 import typer
 
+from .defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 from .errors import AltoxError, ProfileError
 
 app = typer.Typer(
@@ -154,7 +155,7 @@ def point(
     run_guarded(body)
 
 
-def _load_and_evaluate(path: str, rules: list[str], members: int = 0, seed: Optional[int] = None):
+def _load_and_evaluate(path: str, rules: list[str], members: Optional[int] = None, seed: Optional[int] = None):
     """Load a plan, apply --rules, evaluate it and attach the reviews; returns (plan, result)."""
     from .evaluate import evaluate_plan, plan_extras
     from .profile import load_plan
@@ -196,9 +197,11 @@ def plan(
     report: Optional[str] = typer.Option(None, "--report", help="Also write a self-contained HTML report "
                                                                  "(.html) to share."),
     force: bool = typer.Option(False, "--force", help="Replace an existing --chart or --report file."),
-    members: int = typer.Option(200, "--members", help="Simulated people per person for the expected "
-                                                       "SaO2 range (0 skips it)."),
-    seed: Optional[int] = typer.Option(None, "--seed", help="Seed of the expected range (default fixed)."),
+    members: int = typer.Option(ENSEMBLE_MEMBERS, "--members", help="Simulated people per person for the "
+                                "expected SaO2 range, as in 'altox range' and 'altox readings' (0 skips "
+                                "the simulation only; readings are still reviewed)."),
+    seed: int = typer.Option(ENSEMBLE_SEED, "--seed", help="Seed of the expected range (the same default "
+                             "as 'altox range' and 'altox readings')."),
 ):
     """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
     from . import render

@@ -15,6 +15,7 @@ from typing import Optional
 import typer
 
 from .cli import app, run_guarded
+from .defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 
 _SEED_HELP = "Seed of the ensemble (the same seed gives the same numbers)."
 
@@ -106,7 +107,8 @@ def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
         lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
         when = f"{r['day']} {int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}"
         table.add_row(when, r["member"], f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
-                      f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})"
+                      (f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})" if e["low"] is not None
+                       else f"{e['central']:.0f} (-)")
                       + ("" if r["expected_sao2_pct"].get("model_valid", True) else " ?"),
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
                       lls, ", ".join(FLAG_WORDS.get(f["code"], f["code"]) for f in r["flags"]) or "-")
@@ -134,8 +136,9 @@ def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
 @app.command("readings")
 def readings_cmd(
     file: str = typer.Argument(..., help="Expedition plan (YAML) with 'observations'."),
-    members: int = typer.Option(1000, "--members", help="Simulated people per person for the expected range."),
-    seed: int = typer.Option(20240601, "--seed", help=_SEED_HELP),
+    members: int = typer.Option(ENSEMBLE_MEMBERS, "--members", help="Simulated people per person for the "
+                                "expected range (the same default as 'altox plan' and 'altox range')."),
+    seed: int = typer.Option(ENSEMBLE_SEED, "--seed", help=_SEED_HELP),
     json_out: bool = typer.Option(False, "--json", help="Print JSON instead of a table."),
 ):
     """Compare SpO2 and Lake Louise readings with each member's expected range; flag as guidance."""
@@ -167,8 +170,8 @@ def readings_cmd(
 @app.command("range")
 def range_cmd(
     file: str = typer.Argument(..., help="Plan file (YAML)."),
-    members: int = typer.Option(1000, "--members", help="Simulated people per person."),
-    seed: int = typer.Option(20240601, "--seed", help=_SEED_HELP),
+    members: int = typer.Option(ENSEMBLE_MEMBERS, "--members", help="Simulated people per person."),
+    seed: int = typer.Option(ENSEMBLE_SEED, "--seed", help=_SEED_HELP),
     json_out: bool = typer.Option(False, "--json", help="Print JSON instead of tables."),
 ):
     """Expected SaO2 per leg for each person: central value and 5th-95th percentile range."""

@@ -336,15 +336,20 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
                       samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes)
 
 
-def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, progress=None) -> dict:
+def plan_extras(plan, result, *, members: int | None = None, seed: int | None = None, progress=None) -> dict:
     """The reviews that sit beside the per-leg tables: expected ranges (people), readings, oxygen, decompression.
 
     Each is a plain mapping (arrays as numpy); :mod:`altox.render` presents them. ``members``
-    simulated people per person for the expected range (0 skips it).
+    simulated people per person for the expected range (default
+    :data:`altox.defaults.ENSEMBLE_MEMBERS`, the same as ``altox range`` and ``altox readings``;
+    0 skips only the simulation: readings are still reviewed, against each member's central value,
+    the party and published levels, and a note in ``result.notes`` says so).
     """
     from .oxygen_plan import decompression_review, oxygen_review
-    from .population import DEFAULT_SEED, expected_range
-    from .readings import review
+    from .population import DEFAULT_MEMBERS, DEFAULT_SEED, expected_range
+    from .readings import central_ranges, review
+
+    members = DEFAULT_MEMBERS if members is None else members
 
     extras = {"oxygen": oxygen_review(plan, result), "decompression": decompression_review(plan, result)}
     people = plan.party if plan.kind == "expedition" else plan.aboard
@@ -356,11 +361,18 @@ def plan_extras(plan, result, *, members: int = 200, seed: int | None = None, pr
             cabin_ft = float(np.max(result.samples["cabin_pressure_altitude_ft"]))
             ground_ft = float(plan.departure_elevation_m) / M_PER_FT
             extras["fitness_to_fly"] = [occupant_fitness_to_fly(o, cabin_ft, ground_ft) for o in with_ground]
+    observed = plan.kind == "expedition" and bool(getattr(plan, "observations", None))
     if members and people:
         extras["ranges"] = expected_range(plan, result, n=members, seed=DEFAULT_SEED if seed is None else seed,
                                           progress=progress)
-        if plan.kind == "expedition" and getattr(plan, "observations", None):
+        if observed:
             extras["readings"] = review(plan, result, extras["ranges"])
+    elif people:
+        result.notes.append("No simulated people (members 0): the expected range is not computed"
+                            + ("; readings are reviewed against each member's own central value, the party's "
+                               "readings and published levels, without the range check." if observed else "."))
+        if observed:
+            extras["readings"] = review(plan, result, central_ranges(result))
     return extras
 
 

@@ -31,9 +31,8 @@ from .individual import _get, _home_shunt, _norm_cdf, _norm_ppf, _value, coeffic
 __all__ = ["expected_range", "point_range", "draw_factors", "DEFAULT_SEED", "DEFAULT_PERCENTILES",
            "DEFAULT_MEMBERS", "MAX_CHUNK_ELEMENTS"]
 
-DEFAULT_SEED = 20240601
+from .defaults import ENSEMBLE_MEMBERS as DEFAULT_MEMBERS, ENSEMBLE_SEED as DEFAULT_SEED  # noqa: E402
 DEFAULT_PERCENTILES = (5.0, 50.0, 95.0)
-DEFAULT_MEMBERS = 1000
 MAX_CHUNK_ELEMENTS = 400_000   # people x members x samples evaluated at once
 _HB_LIMITS_G_DL = (7.0, 22.0)
 _TERTILES = {"low": 0, "normal": 1, "high": 2}

@@ -36,7 +36,7 @@ import numpy as np
 from .errors import OutOfRangeError
 from .individual import coefficients
 
-__all__ = ["lake_louise", "review", "oximeter_error", "expected_spo2_range", "hape_criteria",
+__all__ = ["lake_louise", "review", "central_ranges", "oximeter_error", "expected_spo2_range", "hape_criteria",
            "oximetry_caveats", "CAUTION", "FLAG_CODES"]
 
 CAUTION = ("Guidance for the expedition medic, not a diagnosis: readings are compared with a "
@@ -269,6 +269,20 @@ def _sample_at(ranges, t_h):
     return int(np.clip(np.searchsorted(start, t_h, side="right") - 1, 0, len(start) - 1))
 
 
+def central_ranges(result) -> dict:
+    """A stand-in for the expected range with each member's central value only (no simulated people).
+
+    Built from an evaluated plan (:func:`altox.evaluate.evaluate_plan`): the members' own SaO2 at
+    every sample, on the same timeline.  :func:`review` then skips the range check and keeps the
+    rest (central value, party, published levels, symptoms and signs).
+    """
+    s = result.samples
+    return {"n": 0, "seed": None, "percentiles": [], "time_h": np.asarray(s["time_h"]),
+            "altitude_m": np.asarray(s["altitude_m"]), "sleeping": np.asarray(s["sleeping"]),
+            "people": [{"name": name, "central_sao2_pct": np.asarray(m["sao2_pct"])}
+                       for name, m in result.member_samples.items()], "notes": []}
+
+
 def review(plan, result=None, ranges=None) -> list[dict]:
     """Review every observation of a plan as an expedition medic would; flag and advise as guidance.
 
@@ -293,7 +307,8 @@ def review(plan, result=None, ranges=None) -> list[dict]:
     list of dict
         One per observation, in plan order: ``day``, ``member``, ``time_h``, ``sleeping``,
         ``altitude_m``, ``spo2_pct``, ``heart_rate_per_min``, ``lake_louise`` (the scoring),
-        ``expected_sao2_pct`` and ``expected_spo2_pct`` (``central``, ``low``, ``high``),
+        ``expected_sao2_pct`` and ``expected_spo2_pct`` (``central``, ``low``, ``high``; the
+        bounds None when ``ranges`` come from :func:`central_ranges`),
         ``party_median_spo2_pct`` (the other members' readings that day, or None), ``hape``
         (:func:`hape_criteria` plus ``suspected`` and ``history``), ``ascent_continues``,
         ``recent_gain_m``, ``flags`` (each ``code``, ``message``, ``source``), ``actions``
@@ -342,10 +357,15 @@ def review(plan, result=None, ranges=None) -> list[dict]:
         clock = default_t if obs.time_h is None else obs.time_h
         t_h = 24.0 * (obs.day - 1) + clock
         i = _sample_at(ranges, t_h)
-        pct = person["sao2_pct_percentiles"][:, i]
-        low, high = float(pct[0]), float(pct[-1])
         central = float(person["central_sao2_pct"][i])
-        spo2_range = expected_spo2_range(central, low, high, (pcts[0], pcts[-1]))
+        if "sao2_pct_percentiles" in person:
+            pct = person["sao2_pct_percentiles"][:, i]
+            low, high = float(pct[0]), float(pct[-1])
+            spo2_range = expected_spo2_range(central, low, high, (pcts[0], pcts[-1]))
+        else:   # no simulated people: the central value only
+            low = high = None
+            spo2_range = {"central": central + float(oximeter_error(central)[0]), "low": None, "high": None,
+                          "bias": None, "precision": None}
         day = plan.days[obs.day - 1]
         nxt = plan.days[obs.day] if obs.day < len(plan.days) else None
         today_top = max(day.sleep_m, day.high_m or day.sleep_m)
@@ -378,7 +398,7 @@ def review(plan, result=None, ranges=None) -> list[dict]:
         }
         flags, actions = rec_out["flags"], rec_out["actions"]
         state = "asleep" if rec_out["sleeping"] else "awake"
-        below_range = spo2 is not None and spo2 < spo2_range["low"]
+        below_range = spo2 is not None and low is not None and spo2 < spo2_range["low"]
         well_below_expected = spo2 is not None and central - spo2 >= well_below
         below_party = spo2 is not None and party is not None and party - spo2 >= well_below
         if below_range:

@@ -235,3 +235,41 @@ def test_symptom_words_and_errors():
     assert ok.observations[0].signs == ["tachypnoea"]
     with pytest.raises(ProfileError, match="symptoms"):
         load_plan_text(_PLAN.replace("OBS", "{day: 2, member: Pia, symptoms: [sneezing]}"))
+
+
+# -- one default for simulated people; --members 0 skips only the simulation -----------------------------------
+def test_plan_range_and_readings_share_one_default_and_agree(tmp_path):
+    import inspect
+
+    from altox import cli, cli_people
+    from altox.defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
+
+    for fn in (cli.plan, cli_people.readings_cmd, cli_people.range_cmd):
+        params = inspect.signature(fn).parameters
+        assert params["members"].default.default == ENSEMBLE_MEMBERS, fn.__name__
+        assert params["seed"].default.default == ENSEMBLE_SEED, fn.__name__
+    path = tmp_path / "medic.yaml"
+    path.write_text(_MEDIC)
+    runner = CliRunner()
+    out = {cmd: json.loads(runner.invoke(_app(), [cmd, str(path), "--json", "--members", "50"]).stdout)
+           for cmd in ("plan", "range", "readings")}
+    legs = lambda people: {p["name"]: np.round([leg["sao2_pct_percentiles"] for leg in p["legs"]], 4)  # noqa: E731
+                           for p in people}
+    plan_legs, range_legs = legs(out["plan"]["ranges"]["people"]), legs(out["range"]["people"])
+    assert plan_legs.keys() == range_legs.keys()
+    for name in plan_legs:
+        np.testing.assert_array_equal(plan_legs[name], range_legs[name])
+    for a, b in zip(out["plan"]["readings"], out["readings"]["readings"]):
+        assert a["expected_spo2_pct"]["low"] == pytest.approx(b["expected_spo2_pct"]["low"], abs=1e-5)
+
+
+def test_members_0_keeps_readings_and_says_so(tmp_path):
+    path = tmp_path / "medic.yaml"
+    path.write_text(_MEDIC)
+    res = CliRunner().invoke(_app(), ["plan", str(path), "--json", "--members", "0"])
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout)
+    assert "ranges" not in data
+    ben = next(r for r in data["readings"] if r["member"] == "Ben")
+    assert ben["hape"]["suspected"] and ben["expected_spo2_pct"]["low"] is None
+    assert any("members 0" in n for n in data["notes"])
