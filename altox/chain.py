@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import blood, gas_exchange, ventilation
+from . import blood, gas_exchange, validity, ventilation
 from .atmosphere import (ATMOSPHERES, ISA_MAX_M, ISA_MIN_M, MOUNTAIN_MAX_M, MOUNTAIN_MIN_M,
                          altitude_for_pressure, barometric_pressure)
 from .errors import OutOfRangeError
@@ -20,6 +20,7 @@ ASSESS_KEYS = (
     "arterial_pco2_mmhg", "arterial_ph", "bicarbonate_mmol_l", "sao2_pct", "hemoglobin_g_dl",
     "o2_content_ml_dl", "equivalent_altitude_m", "ventilation_ratio", "alveolar_arterial_mmhg",
     "alveolar_po2_clamped", "equivalent_altitude_clipped", "solver_converged",
+    "validity_status", "validity_reasons", "outside_validated_range",
 )
 
 
@@ -84,6 +85,10 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
         Arrays (or Python scalars for scalar input) under the keys of
         :data:`ASSESS_KEYS`; ``atmosphere`` is a string (``'measured'`` when a pressure
         was given). ``sao2_pct`` is a percentage; all other fractions are 0-1.
+        ``validity_status`` (0 validated, 1 extrapolated, 2 no steady state),
+        ``validity_reasons`` and ``outside_validated_range`` say whether each value is a
+        prediction (:func:`altox.validity.classify`; names in
+        :data:`altox.validity.STATUS_NAMES`, sentences from :func:`altox.validity.validity_notes`).
 
     Raises
     ------
@@ -111,7 +116,7 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
         # cache-sized pieces: the same arithmetic, without paging fresh memory for every temporary;
         # inputs that do not vary stay scalars, results go straight into the outputs
         flat = {k: (v.reshape(()) if v.size == 1 else np.broadcast_to(v, shape).ravel()) for k, v in given.items()}
-        out = {key: np.empty(size, dtype=bool if key in _FLAG_KEYS else float)
+        out = {key: np.empty(size, dtype=_DTYPES.get(key, float))
                for key in ASSESS_KEYS if key != "atmosphere"}
         for i in range(0, size, CHUNK_SIZE):
             j = min(size, i + CHUNK_SIZE)
@@ -126,14 +131,15 @@ def assess(altitude_m=None, *, atmosphere: str = "isa", pb_mmhg=None, fio2=gas_e
     shape = np.broadcast_shapes(*(np.shape(v) for v in part.values() if not isinstance(v, str)))
 
     def full(key):
-        return np.broadcast_to(np.asarray(part[key], dtype=bool if key in _FLAG_KEYS else float), shape).copy()
+        return np.broadcast_to(np.asarray(part[key], dtype=_DTYPES.get(key, float)), shape).copy()
 
     if shape == ():
         return {k: (part[k] if k == "atmosphere" else full(k).item()) for k in ASSESS_KEYS}
     return {k: (part[k] if k == "atmosphere" else full(k)) for k in ASSESS_KEYS}
 
 
-_FLAG_KEYS = ("alveolar_po2_clamped", "equivalent_altitude_clipped", "solver_converged")
+_FLAG_KEYS = ("alveolar_po2_clamped", "equivalent_altitude_clipped", "solver_converged", "outside_validated_range")
+_DTYPES = {**{k: bool for k in _FLAG_KEYS}, "validity_status": np.int8, "validity_reasons": np.int16}
 
 
 def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_FIO2, days=0.0, f_ventilatory=None,
@@ -227,7 +233,9 @@ def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_F
     clipped = (pb_eq < p_min) | (pb_eq > p_max)
     eq_alt = np.asarray(altitude_for_pressure(np.clip(pb_eq, p_min, p_max), eq_atm))
 
+    state = validity.classify(pio2, fv, age_y, converged, clamped, body_temp_c)
     return {
+        **state,
         "altitude_m": alt,
         "atmosphere": atm_label,
         "barometric_mmhg": pb,

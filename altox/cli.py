@@ -132,9 +132,16 @@ def point(
                 raise type(exc)(f"{field}: {shown!r}: {exc.message}", field=field) from None
             raise
         from . import render
+        from .validity import describe
 
+        state = describe(result["validity_status"], result["validity_reasons"],
+                         inspired_po2_mmhg=result["inspired_po2_mmhg"], age_y=opts["age_y"])
         if json_out:
-            typer.echo(render.to_json(result))
+            data = {k: v for k, v in result.items() if k not in ("validity_status", "validity_reasons")}
+            data.update(validity_status=state["validity_status"],
+                        outside_validated_range=state["outside_validated_range"],
+                        validity_notes=state["validity_notes"], time_limited=state["time_limited"])
+            typer.echo(render.to_json(data))
             return
         from .terminal import console as Console
 
@@ -150,7 +157,7 @@ def point(
             assumptions.append("PaCO2 as measured (ventilation model not used).")
         if ph is not None:
             assumptions.append("pH as measured (acid-base model not used).")
-        Console().print(render.point_table(result, assumptions))
+        Console().print(render.point_table(result, assumptions, validity=state))
 
     run_guarded(body)
 

@@ -109,12 +109,34 @@ def caution_panel():
     return Panel(CAUTION, title="Caution", title_align="left", border_style="bold")
 
 
-def point_table(result: dict, assumptions: list[str]):
-    """A rich renderable: every quantity of one point with its unit, then assumptions and caution."""
+# point rows that exist only at a resting steady state (not shown where there is none)
+_STEADY_STATE_KEYS = ("alveolar_pco2_mmhg", "alveolar_po2_mmhg", "arterial_po2_mmhg", "alveolar_arterial_mmhg",
+                      "arterial_ph", "bicarbonate_mmol_l", "sao2_pct", "o2_content_ml_dl", "ventilation_ratio")
+VALIDITY_LABELS = {"validated": "within the validated range", "extrapolated": "EXTRAPOLATED",
+                   "no_steady_state": "NO STEADY STATE"}
+
+
+def saturation_text(sao2_pct, time_limited=None, digits: int = 0, unit: str = " %") -> str:
+    """A saturation as shown to people, or the time-limited state where there is no steady state."""
+    if time_limited:
+        return time_limited
+    if sao2_pct is None:
+        return "-"
+    return f"{sao2_pct:.{digits}f}{unit}"
+
+
+def point_table(result: dict, assumptions: list[str], validity: dict | None = None):
+    """A rich renderable: every quantity of one point with its unit, then assumptions and caution.
+
+    ``validity`` (:func:`altox.validity.describe`) puts the status first and beside the
+    saturation; where there is no steady state the steady-state rows show none.
+    """
     from rich.console import Group
     from rich.table import Table
     from rich.text import Text
 
+    validity = validity or {}
+    status = validity.get("validity_status", "validated")
     table = Table(title="altox point: resting physiology at one place", title_justify="left")
     table.add_column("Quantity")
     table.add_column("Value", justify="right")
@@ -122,7 +144,12 @@ def point_table(result: dict, assumptions: list[str]):
     table.add_column("kPa", justify="right")
     for key, label, unit, digits in _POINT_ROWS:
         value = result[key]
+        if status == "no_steady_state" and key in _STEADY_STATE_KEYS:
+            table.add_row(label, "none" if key == "sao2_pct" else "-", "", "")
+            continue
         text = f"{value:.{digits}f}"
+        if key == "sao2_pct" and status != "validated":
+            text += f" ({status})"
         kpa = f"{value * KPA_PER_MMHG:.2f}" if unit == "mmHg" else ""
         if key == "altitude_m":
             text += f"  ({value / 0.3048:,.0f} ft)"
@@ -135,7 +162,12 @@ def point_table(result: dict, assumptions: list[str]):
     if not result.get("solver_converged", True):
         notes.append("WARNING: the ventilation model did not converge; values are unreliable.")
     body = Text("Assumptions:\n" + "\n".join(f"- {n}" for n in notes))
-    return Group(table, body, caution_panel())
+    if not validity:
+        return Group(table, body, caution_panel())
+    first = validity.get("time_limited") or VALIDITY_LABELS[status]
+    head = Text(("" if status == "validated" else first[0].upper() + first[1:] + "\n") + "\n".join(f"- {n}" for n in validity["validity_notes"]),
+                style="bold" if status != "validated" else "")
+    return Group(head, table, body, caution_panel())
 
 
 # -- plans ------------------------------------------------------------------------------------

@@ -14,8 +14,9 @@ constant 1.5 days) and knots three hours apart it is of order 1e-3 in SaO2 perce
 ``tests/test_sampling.py`` holds the interpolated path to the full evaluation of every sample
 (SaO2 within 0.01 points, PO2 within 0.01 mmHg) on the demo plans at one-minute sampling.
 Samples at knots are the full evaluation itself.  Boolean outputs between knots are the
-conservative combination of the two knots (converged only if both are; clamped or clipped if
-either is).
+conservative combination of the two knots (converged only if both are; clamped, clipped or
+outside the validated range if either is); the validity status between knots is the worse of
+the two knots' and its reasons those of both.
 """
 
 from __future__ import annotations
@@ -29,7 +30,8 @@ DEFAULT_KNOT_SPACING_H = 3.0
 #: the assess keywords that may vary smoothly within a segment; all others are piecewise constant
 SMOOTH_KEYWORDS = ("f_ventilatory", "f_renal", "days")
 _ALL_OF = ("solver_converged",)
-_ANY_OF = ("alveolar_po2_clamped", "equivalent_altitude_clipped")
+_ANY_OF = ("alveolar_po2_clamped", "equivalent_altitude_clipped", "outside_validated_range")
+_WORST_OF = {"validity_status": np.maximum, "validity_reasons": np.bitwise_or}   # integer codes
 
 
 def _compact(a):
@@ -125,8 +127,9 @@ class Knots:
         return b
 
     def interpolate_flag(self, values, samples=slice(None), *, combine):
-        """Boolean values at the knots -> samples: ``combine`` (np.logical_and / _or) of the two knots."""
-        v = np.asarray(values, dtype=bool)
+        """Boolean (or integer code) values at the knots -> samples: ``combine`` (np.logical_and /
+        _or for flags, np.maximum / np.bitwise_or for codes) of the two knots."""
+        v = np.asarray(values)
         left, right, w = self.left[samples], self.right[samples], self.weight[samples]
         a = np.take(v, left, axis=-1)
         return np.where(w == 0.0, a, combine(a, np.take(v, right, axis=-1)))
@@ -159,6 +162,8 @@ def assess_along(time_h, *, spacing_h: float | None = None, **kwargs) -> dict:
             out[key] = knots.interpolate_flag(v, combine=np.logical_and)
         elif key in _ANY_OF:
             out[key] = knots.interpolate_flag(v, combine=np.logical_or)
+        elif key in _WORST_OF:
+            out[key] = knots.interpolate_flag(v, combine=_WORST_OF[key])
         else:
             out[key] = knots.interpolate(v)
     return out

@@ -22,7 +22,8 @@ fio2s = st.floats(0.05, 1.0)
 def test_contract_keys_and_scalars():
     r = altox.assess(5000.0)
     assert set(ISSUE_KEYS) <= set(r) == set(ASSESS_KEYS)
-    assert all(isinstance(r[k], (float, bool, str)) for k in r)
+    assert all(isinstance(r[k], (float, bool, str)) for k in r if k not in ("validity_status", "validity_reasons"))
+    assert isinstance(r["validity_status"], int) and isinstance(r["validity_reasons"], int)
 
 
 @settings(max_examples=60, deadline=None)
