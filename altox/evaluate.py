@@ -129,6 +129,9 @@ def select_rule_sets(plan):
     notes = [f"Not applied: {rs.id} ({rs.label}) is {_KIND_WORDS[rs.kind]} and does not fit a "
              f"{plan.kind} plan; the plan was checked against "
              f"{', '.join(r.id for r in applied)} only." for rs in wrong]
+    for rs in applied:
+        for ne in rs.not_encoded:
+            notes.append(f"Not checked: {rs.label} {ne.section}: {ne.reason}.".replace("..", "."))
     return applied, notes
 
 
@@ -153,23 +156,32 @@ def guidance_findings(plan, rule_sets=None):
         ``cabin_hours`` maps each of :data:`SUMMARY_CABIN_FT` to the hours with the cabin
         strictly above it (empty for an expedition).
     """
-    from .rules.checker import check_flight, check_itinerary, hours_above
+    from .rules.checker import check_flight, check_flight_levels, check_itinerary, hours_above
+    from .rules.loader import FLIGHT_LEVEL_CHECKS
     from .timeline import OXYGEN_NAMES, cabin_crossings
 
     rule_sets = _rule_sets(plan) if rule_sets is None else rule_sets
     findings, cabin_hours = [], {}
     if plan.kind == "flight":
-        figures = list(SUMMARY_CABIN_FT)
+        figures, levels = list(SUMMARY_CABIN_FT), []
         for rs in rule_sets:
             if rs.kind == "aviation":
                 for th in rs.thresholds:
-                    figures += [th.lower_ft] + ([th.top_ft] if th.top_ft is not None else [])
-        pieces = cabin_crossings(plan, figures)
+                    edges = [th.lower_ft] + ([th.top_ft] if th.top_ft is not None else [])
+                    if th.check in FLIGHT_LEVEL_CHECKS:
+                        levels += edges + ([th.unless.up_to_ft] if th.unless and th.unless.up_to_ft else [])
+                    else:
+                        figures += edges
+        pieces = cabin_crossings(plan, figures, levels)
         use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in pieces.oxygen])
         for rs in rule_sets:
             if rs.kind == "aviation":
                 findings += check_flight(pieces.time_h, pieces.duration_h, pieces.cabin_pressure_altitude_ft,
                                          pieces.leg + 1, use, rs)
+                findings += check_flight_levels(
+                    pieces.duration_h, pieces.aircraft_pressure_altitude_ft, pieces.leg + 1, use, rs,
+                    pressurized=plan.aircraft.pressurized, pilots_at_controls=plan.pilots_at_controls,
+                    quick_donning=plan.quick_donning_masks, oxygen_carried_h=plan.oxygen_carried_h)
         cabin_hours = {x: hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, x)
                        for x in SUMMARY_CABIN_FT}
     else:

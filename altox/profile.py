@@ -945,6 +945,18 @@ class FlightPlan(_PlanBase):
         Optional[float], BeforeValidator(_opt(_wrap_unit(parse_vertical_speed))),
         WithJsonSchema(_qschema("Emergency descent rate.", ["4,000 ft/min"], nullable=True))] = Field(
         None, alias="emergency_descent_rate", description="Emergency descent rate. [ft/min]")
+    pilots_at_controls: Annotated[StrictInt, Field(ge=1, le=4)] = Field(
+        1, description="Pilots at the controls throughout the flight; default 1 (the two-pilot "
+        "exceptions of the mask rules then do not apply).")
+    quick_donning_masks: StrictBool = Field(
+        False, description="Whether each pilot has a quick-donning oxygen mask (one hand, within "
+        "5 seconds); default false.")
+    oxygen_carried_h: Annotated[Optional[float], BeforeValidator(_opt(_leg_duration)),
+                                WithJsonSchema(_qschema("Oxygen carried for each occupant, as time of use.",
+                                                        ["10 min", "30 min"], nullable=True))] = Field(
+        None, alias="oxygen_carried", description="Supplemental oxygen available to each occupant for a "
+        "descent after a pressurization failure, as time of use; default: not stated (supply rules are "
+        "then reported as not met). [h]")
     legs: list[Leg] = Field(min_length=1, max_length=10000, description="The legs, in order.")
 
     @model_validator(mode="after")
