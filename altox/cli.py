@@ -334,6 +334,7 @@ def schema():
 # commands in their own modules register themselves on `app`
 from . import cli_oxygen  # noqa: E402,F401  o2-target, o2-flow, cylinders, room, decompress
 from . import cli_people  # noqa: E402,F401  readings, range, fitness-to-fly
+from . import cli_fix  # noqa: E402,F401  fix
 from . import cli_fleet  # noqa: E402,F401  review (many plans)
 
 

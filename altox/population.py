@@ -165,7 +165,7 @@ def _people_of(plan, result):
 
 def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
                    percentiles=DEFAULT_PERCENTILES, progress=None,
-                   max_chunk_elements=MAX_CHUNK_ELEMENTS) -> dict:
+                   max_chunk_elements=MAX_CHUNK_ELEMENTS, fio2=None) -> dict:
     """Expected SaO2 range of every person along a plan, by Monte Carlo.
 
     Parameters
@@ -186,6 +186,9 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
         summarised); ``done == total`` at the end.
     max_chunk_elements : int
         Upper bound of people x members x samples evaluated at once (memory).
+    fio2 : array, optional
+        Inspired O2 fraction of each timeline sample (planned oxygen); default air.  It also
+        sets the acclimatization stimulus (less on oxygen).
 
     Returns
     -------
@@ -219,11 +222,14 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     drawn = [draw_factors(x or {}, z) for x in people]
     n_people, n_samples = len(people), len(tl)
     pb = np.asarray(tl.pb_mmhg, dtype=float)
+    from .gas_exchange import AIR_FIO2
+
+    gas = np.full(n_samples, AIR_FIO2) if fio2 is None else np.broadcast_to(np.asarray(fio2, dtype=float), (n_samples,))
     if plan.kind == "expedition":
         home = np.array([min(max(float(_get(x, "home_altitude_m", default=0.0) or 0.0), -500.0), 9000.0)
                          if x is not None else 0.0 for x in people])
         home_pio2 = np.asarray(inspired_po2(np.asarray(barometric_pressure(home, "mountain"))))
-        pio2 = np.broadcast_to(np.asarray(inspired_po2(pb)), (n_people, n_samples))
+        pio2 = np.broadcast_to(np.asarray(inspired_po2(pb, gas)), (n_people, n_samples))
         f_v, f_r = acclimatization_history(pio2, tl.duration_h, home_pio2)
         atmosphere = "mountain"
     else:
@@ -231,6 +237,7 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
         atmosphere = "isa"
     drive = np.where(tl.sleeping, _value("sleep", "drive_scale"), 1.0)
     alt = np.asarray(tl.altitude_m, dtype=float)
+    gas_kw = {} if fio2 is None else {"fio2": gas}
 
     def col(dicts, key):
         return np.array([d[key] for d in dicts], dtype=float)[:, None]
@@ -238,12 +245,13 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     centrals = [d[0] for d in drawn]
     # the full solve at the knots of the timeline (segment ends, at most DEFAULT_KNOT_SPACING_H apart),
     # then every sample by interpolation in time (altox.sampling), chunked to bound memory
-    knots = Knots(tl.time_h, (pb, drive), DEFAULT_KNOT_SPACING_H)
+    knots = Knots(tl.time_h, (pb, drive, gas), DEFAULT_KNOT_SPACING_H)
     k_index = knots.index
     n_knots = k_index.size
     cres = assess(np.broadcast_to(alt[k_index], (n_people, n_knots)),
                   pb_mmhg=np.broadcast_to(pb[k_index], (n_people, n_knots)), atmosphere=atmosphere,
                   f_ventilatory=f_v[:, k_index], f_renal=f_r[:, k_index], drive_scale=drive[None, k_index],
+                  **{k: v[None, k_index] for k, v in gas_kw.items()},
                   **{k: col(centrals, k) for k in centrals[0]})
     central = knots.interpolate(np.asarray(cres["sao2_pct"]))
     # where the central solve leaves the model (no steady state, alveolar PO2 clamped at zero, inspired
@@ -269,7 +277,8 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
             r = assess(np.broadcast_to(alt[ks], (n_people, n, pos.size)),
                        pb_mmhg=np.broadcast_to(pb[ks], (n_people, n, pos.size)), atmosphere=atmosphere,
                        f_ventilatory=f_v[:, None, ks], f_renal=f_r[:, None, ks],
-                       drive_scale=drive[None, None, ks], **member_kw)
+                       drive_scale=drive[None, None, ks], **member_kw,
+                       **{k: v[None, None, ks] for k, v in gas_kw.items()})
             sao2_k[:, :, pos] = r["sao2_pct"]
             done += pos.size
             if progress is not None:

@@ -642,6 +642,8 @@ class Day(_Model):
         None, alias="pressure", description="Measured pressure at the sleeping site. [mmHg]")
     note: Optional[StrictStr] = Field(None, description="Free text.")
     oxygen: Optional[DayOxygen] = Field(None, description="Supplemental oxygen that day.")
+    fixed: StrictBool = Field(False, description="The day cannot move or change (a flight out, a "
+                              "permit date): 'altox fix' keeps its number and its content.")
 
     @model_validator(mode="after")
     def _check(self):
@@ -763,6 +765,8 @@ class ExpeditionPlan(_PlanBase):
     days: list[Day] = Field(min_length=1, max_length=MAX_DAYS, description="The days, in order.")
     observations: list[Observation] = Field(
         default_factory=list, description="Readings taken on the way: SpO2, heart rate, Lake Louise score.")
+    max_days: Optional[Annotated[StrictInt, Field(ge=1, le=MAX_DAYS)]] = Field(
+        None, description="Longest the itinerary may become when 'altox fix' adds days.")
 
     @model_validator(mode="after")
     def _check(self):

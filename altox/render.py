@@ -88,6 +88,10 @@ def to_csv(rows: list[dict]) -> str:
     return buf.getvalue()
 
 
+#: the one-line caution that opens every plan's output (the full caution closes it)
+SHORT_CAUTION = "Guidance only: model estimates, not a clearance; the full caution is at the end."
+
+
 #: first characters that make a spreadsheet read a cell as a formula (OWASP, "CSV injection")
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "|", "%")
 
@@ -195,14 +199,131 @@ def _fmt_h(hours: float) -> str:
     return f"{hours * 60:.0f} min"
 
 
-def plan_renderables(result, *, feet: bool = False):
-    """Rich renderables for one evaluated plan: legs, physiology, people, guidance, notes, caution."""
+def _compact_table(title=None, caption=None):
+    """A rich table without side borders: one header rule, rows on single lines where they fit."""
+    from rich import box
+    from rich.table import Table
+
+    return Table(title=title, title_justify="left", pad_edge=False, box=box.SIMPLE_HEAD, show_edge=False,
+                 caption=caption, caption_justify="left")
+
+
+def verdict_renderables(result, verdict: dict) -> list:
+    """The verdict first: the worst moment, each person's worst moment, what breaks which rule and
+    what to do (the findings, numbered as the flags in the tables)."""
+    from rich.text import Text
+
+    w = verdict["worst"]
+    out = [Text("Verdict", style="bold")]
+    state = "asleep" if w["asleep"] else "awake"
+    where = w["label"] if w["label"].lower().startswith("leg") else f"{w['label']} (leg {w['leg']})"
+    out.append(Text(f"Worst moment: {where}: expected SaO2 {w['sao2_pct']:.0f} % "
+                    f"{state}, reference adult at rest on air."))
+    people = verdict["people"]
+    if len(people) > 1:
+        expedition = result.kind == "expedition"
+        table = _compact_table()
+        table.add_column("Worst moment per person")
+        table.add_column("Leg", justify="right")
+        table.add_column("SaO2 %", justify="right")
+        table.add_column("Range %", justify="right")
+        table.add_column("State")
+        table.add_column("Risk" if expedition else "Role")
+        for p in people:
+            rng = "-" if p["range_pct"] is None else f"{p['range_pct'][0]:.0f}-{p['range_pct'][1]:.0f}"
+            state = "-" if p["asleep"] is None else ("asleep" if p["asleep"] else "awake")
+            last = (p["risk_category"] or "-") if expedition else p["role"]
+            table.add_row(p["name"], str(p["leg"]), f"{p['sao2_pct']:.0f}", rng, state, last)
+        out.append(table)
+    c = verdict["counts"]
+    rules = ", ".join(c["rule_sets"]) or "none"
+    if not verdict["findings"]:
+        out.append(Text(f"Guidance ({rules}): the plan touches no rule altox checks; not a clearance."))
+        return out
+    out.append(Text(f"Findings ({rules}): {c['not_met']} not met, {c['met_with_oxygen']} met with the "
+                    "planned oxygen.", style="bold"))
+    for f in verdict["findings"]:
+        mark = FLAG_BROKEN if f["status"] == "not met" else FLAG_MET
+        out.append(Text(f"{mark}{f['number']} {f['status'].capitalize()} ({f['section']}): {f['message']} "
+                        f"To do: {f['what_to_do']}"))
+    return out
+
+
+def plan_renderables(result, *, feet: bool = False, rule_sets=None):
+    """Rich renderables for one evaluated plan, in the order of a decision: a short caution, the
+    verdict and findings, the people, the per-leg tables, oxygen and decompression, assumptions
+    and sources, and the full caution at the end."""
+    from rich.table import Table
+    from rich.text import Text
+
+    from .verdict import plan_verdict
+
+    if rule_sets is None:
+        from .charts import applied_rule_sets
+
+        rule_sets, _missing = applied_rule_sets(result)
+    out = [Text(result.name, style="bold"), Text(f"{result.kind.capitalize()} plan: {result.source or 'given as data'}"),
+           Text(SHORT_CAUTION)]
+    out.extend(verdict_renderables(result, plan_verdict(result, rule_sets)))
+    if getattr(result, "guidance_notes", None):
+        out.append(Text("Guidance not applied or not checked\n"
+                        + "\n".join(f"(!) {n}" for n in result.guidance_notes)))
+
+    # -- people and exposure --------------------------------------------------------------------
+    s = result.summary
+    lines = [f"Hypoxic dose: {s['hypoxic_dose_kmh']:.1f} km.h above {s['dose_floor_m']:,.0f} m over "
+             f"{_fmt_h(s['total_hours'])}."]
+    below = [f"{k.split('_')[2]} %: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_below_")]
+    if below:
+        lines.append("Time below SaO2 (reference adult): " + "; ".join(below) + ".")
+    cabin = [f"{int(k.split('_')[3]):,} ft: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_cabin_above_")]
+    if cabin:
+        lines.append("Time with cabin above: " + "; ".join(cabin) + ".")
+    out.append(Text("Exposure\n" + "\n".join(lines)))
+    if result.members:
+        people = Table(title="People", title_justify="left", pad_edge=False)
+        for name in ("Name", "Role", "Age", "Hb g/dL", "Lowest SaO2 %", "Leg", "Risk (guidance)"):
+            people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right")
+        for m in result.members:
+            people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
+                           f"{m['min_sao2_pct']:.0f}", str(m["min_sao2_leg"]), m.get("risk_category") or "-")
+        out.append(people)
+        texts: dict[str, list[str]] = {}
+        for m in result.members:
+            if m.get("prophylaxis"):
+                texts.setdefault(m["prophylaxis"], []).append(m["name"])
+        for text, names in texts.items():
+            out.append(Text(f"Prevention (guidance) for {', '.join(names)}: {text}"))
+    out.extend(people_extras_renderables(result))
+
+    # -- per-leg tables -------------------------------------------------------------------------
+    out.extend(leg_renderables(result, feet=feet))
+    out.extend(oxygen_extras_renderables(result))
+    out.append(Text("Assumptions\n" + "\n".join(f"- {n}" for n in result.notes)))
+    out.append(Text("Sources\n" + "\n".join(f"- {line}" for line in sources_lines(result, rule_sets))))
+    out.append(caution_panel())
+    return out
+
+
+def sources_lines(result, rule_sets) -> list[str]:
+    """The primary source of every rule set applied and of every finding, once each."""
+    lines = []
+    for rs in rule_sets or ():
+        line = f"{rs.id}: {rs.citation.rstrip('.')}." + (f" Official text: {rs.url}" if rs.url else "")
+        if line not in lines:
+            lines.append(line)
+    for f in result.findings:
+        if not any(f.citation.rstrip(".") in line for line in lines):
+            lines.append(f"{f.rule_set_id}: {f.citation.rstrip('.')}.")
+    return lines or ["No rule set applied."]
+
+
+def leg_renderables(result, *, feet: bool = False) -> list:
+    """The per-leg tables: where and when, then the expected physiology with the flags."""
     from rich.table import Table
     from rich.text import Text
 
     out = []
-    head = Text(f"{result.name}  ({result.kind}; {result.source or 'plan'})", style="bold")
-    out.append(head)
     alt_unit = "ft" if feet else "m"
     conv = (lambda m: m / 0.3048) if feet else (lambda m: m)
     where = Table(title="Where and when", title_justify="left", pad_edge=False,
@@ -256,50 +377,16 @@ def plan_renderables(result, *, feet: bool = False):
         phys.add_row(*row, f"{leg['o2_content_ml_dl']:.1f}", flags)
     out.append(phys)
     out.append(Text(FLAG_LEGEND))
-
-    if result.members:
-        people = Table(title="People", title_justify="left", pad_edge=False)
-        for name in ("Name", "Role", "Age", "Hb g/dL", "Lowest SaO2 %", "Leg", "Risk (guidance)"):
-            people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right")
-        for m in result.members:
-            people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
-                           f"{m['min_sao2_pct']:.0f}", str(m["min_sao2_leg"]), m.get("risk_category") or "-")
-        out.append(people)
-        texts: dict[str, list[str]] = {}
-        for m in result.members:
-            if m.get("prophylaxis"):
-                texts.setdefault(m["prophylaxis"], []).append(m["name"])
-        for text, names in texts.items():
-            out.append(Text(f"Prevention (guidance) for {', '.join(names)}: {text}"))
-
-    s = result.summary
-    lines = [f"Worst leg: {s['worst_leg']} ({s['worst_leg_label']}), expected SaO2 {s['worst_sao2_pct']:.0f} %.",
-             f"Hypoxic dose: {s['hypoxic_dose_kmh']:.1f} km.h above {s['dose_floor_m']:,.0f} m over "
-             f"{_fmt_h(s['total_hours'])}."]
-    below = [f"{k.split('_')[2]} %: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_below_")]
-    if below:
-        lines.append("Time below SaO2 (reference adult): " + "; ".join(below) + ".")
-    cabin = [f"{int(k.split('_')[3]):,} ft: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_cabin_above_")]
-    if cabin:
-        lines.append("Time with cabin above: " + "; ".join(cabin) + ".")
-    lines.append(f"Guidance applied: {', '.join(result.rule_sets)}; {s['rules_broken']} not met, "
-                 f"{s['rules_touched']} touched.")
-    out.append(Text("Summary\n" + "\n".join(lines)))
-    notes = getattr(result, "guidance_notes", [])
-    if result.findings or notes:
-        g = ["Guidance"] + [f"(!) {n}" for n in notes]
-        for k, f in enumerate(result.findings):
-            mark = FLAG_MET if f.status == "required-planned" else FLAG_BROKEN
-            g.append(f"{mark}{k + 1} [{f.rule_set_id} {f.section}] {f.message} Source: {f.citation}")
-        out.append(Text("\n".join(g)))
-    out.extend(extras_renderables(result))
-    out.append(Text("Notes\n" + "\n".join(f"- {n}" for n in result.notes)))
-    out.append(caution_panel())
     return out
 
 
 def extras_renderables(result) -> list:
     """Expected ranges, readings, oxygen and decompression sections of a plan (no caution: the caller's)."""
+    return people_extras_renderables(result) + oxygen_extras_renderables(result)
+
+
+def people_extras_renderables(result) -> list:
+    """Expected SaO2 ranges, fitness to fly and readings, where the plan has them."""
     from rich.table import Table
     from rich.text import Text
 
@@ -314,9 +401,8 @@ def extras_renderables(result) -> list:
         for person in ranges["people"]:
             worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
             pct = worst["sao2_pct_percentiles"]
-            mark = "" if worst.get("model_valid", True) else " " + OUTSIDE_MODEL
-            table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}{mark}",
-                          f"{pct[0]:.0f}-{pct[-1]:.0f}{mark}", "yes" if worst["sleeping"] else "no")
+            table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
+                          f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no")
         out.append(table)
     if result.extras.get("fitness_to_fly"):
         from .cli_people import fitness_lines
@@ -327,6 +413,12 @@ def extras_renderables(result) -> list:
         from .cli_people import readings_renderables
 
         out.extend(readings_renderables(result.name, result.extras["readings"], []))
+    return out
+
+
+def oxygen_extras_renderables(result) -> list:
+    """The oxygen and decompression reviews of a plan, where it has them."""
+    out = []
     ox, dec = result.extras.get("oxygen"), result.extras.get("decompression")
     if ox or dec:
         from .render_oxygen import decompression_review_renderables, oxygen_review_renderables
@@ -349,21 +441,34 @@ def finding_dict(finding) -> dict:
     return data
 
 
-def plan_to_dict(result, *, timeline: bool = False) -> dict:
-    """JSON-ready mapping of an evaluated plan (same numbers as the tables)."""
-    from dataclasses import asdict
+#: the sections of a plan's JSON, in the order of the terminal and the report
+JSON_SECTIONS = ("plan", "kind", "source", "caution_short", "rule_sets", "verdict", "findings", "guidance_notes",
+                 "summary",
+                 "members", "ranges", "fitness_to_fly", "readings", "legs", "oxygen", "decompression", "notes",
+                 "sources", "caution")
 
+
+def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
+    """JSON-ready mapping of an evaluated plan (same numbers as the tables), its sections in the
+    order of the terminal output (:data:`JSON_SECTIONS`; extras a plan lacks are left out)."""
+    from .verdict import plan_verdict
+
+    if rule_sets is None:
+        from .charts import applied_rule_sets
+
+        rule_sets, _missing = applied_rule_sets(result)
     legs = []
     for leg in result.legs:
         row = {k: v for k, v in leg.items() if k != "flags"}
         row["flags"] = [_flag_text(result, {"flags": [k]}) for k in leg["flags"]]
         legs.append(row)
-    data = {
-        "plan": result.name, "kind": result.kind, "source": result.source,
-        "rule_sets": result.rule_sets, "summary": result.summary, "legs": legs,
-        "members": result.members, "findings": [finding_dict(f) for f in result.findings],
-        "guidance_notes": list(getattr(result, "guidance_notes", [])),
-        "notes": result.notes, "caution": CAUTION,
+    parts = {
+        "plan": result.name, "kind": result.kind, "source": result.source, "caution_short": SHORT_CAUTION,
+        "rule_sets": result.rule_sets, "verdict": plan_verdict(result, rule_sets),
+        "findings": [finding_dict(f) for f in result.findings],
+        "guidance_notes": list(getattr(result, "guidance_notes", [])), "summary": result.summary,
+        "members": result.members, "legs": legs, "notes": result.notes,
+        "sources": sources_lines(result, rule_sets), "caution": CAUTION,
     }
     for key, value in result.extras.items():
         if key == "ranges" and not timeline:   # per-sample percentiles only with --timeline
@@ -371,8 +476,9 @@ def plan_to_dict(result, *, timeline: bool = False) -> dict:
                                                                  "sleeping")}
             value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
                                for p in value["people"]]
-        data[key] = value
-    data = public(data)
+        parts[key] = value
+    order = [k for k in JSON_SECTIONS if k in parts] + [k for k in parts if k not in JSON_SECTIONS]
+    data = public({k: parts[k] for k in order})
     if timeline:
         n = len(result.samples["time_h"])
         data["timeline"] = [{k: v[i] for k, v in result.samples.items()} for i in range(n)]

@@ -192,25 +192,61 @@ def _caution_block(where: str) -> str:
             f"<h2>Guidance only &mdash; not a clearance</h2>\n<p>{_e(CAUTION)}</p>\n</aside>")
 
 
-def _summary(result, feet: bool) -> str:
+def _summary(result, feet: bool, rule_sets=None) -> str:
+    """The verdict first, as in the terminal: worst moment, each person's worst moment, the
+    findings with what to do, then the exposure figures."""
+    from .render import FLAG_BROKEN as XB
+    from .verdict import plan_verdict
+
+    v = plan_verdict(result, rule_sets)
     s = result.summary
+    w = v["worst"]
     length = (f"{len(result.legs)} days" if result.kind == "expedition"
               else f"{len(result.legs)} legs, {_fmt_h(s['total_hours'])}")
+    parts = ['<section id="summary">', "<h2>Verdict</h2>",
+             f"<p><strong>Worst moment:</strong> {_e(w['label'])} (leg {w['leg']}): expected SaO2 "
+             f"<strong>{w['sao2_pct']:.0f} %</strong> {'asleep' if w['asleep'] else 'awake'}, reference adult at "
+             "rest on air.</p>"]
+    if len(v["people"]) > 1:
+        expedition = result.kind == "expedition"
+        rows = []
+        for p in v["people"]:
+            rng = "&ndash;" if p["range_pct"] is None else f"{p['range_pct'][0]:.0f}-{p['range_pct'][1]:.0f}"
+            state = "&ndash;" if p["asleep"] is None else ("asleep" if p["asleep"] else "awake")
+            last = _e(p["risk_category"] or "-") if expedition else _e(p["role"])
+            rows.append(([_e(p["name"]), str(p["leg"]), _e(p["label"]), f"{p['sao2_pct']:.0f}", rng, state, last], ""))
+        parts.append(_table("Worst moment per person (expected SaO2; range: 5th to 95th percentile of simulated "
+                            "people like them)", ["Person", "Leg", "When", "SaO2 %", "Range %", "State",
+                                                  "Risk" if expedition else "Role"],
+                            [False, True, False, True, True, False, False], rows))
+    c = v["counts"]
+    rules = ", ".join(c["rule_sets"]) or "none"
+    if v["findings"]:
+        parts.append(f"<h3>Findings ({_e(rules)}): {c['not_met']} not met, {c['met_with_oxygen']} met with the "
+                     "planned oxygen</h3>")
+        items = []
+        for f in v["findings"]:
+            broken = f["status"] == "not met"
+            mark = XB if broken else FLAG_MET
+            items.append(f'<li><span class="flag {"x" if broken else "m"}">{mark}{f["number"]}</span> '
+                         f"<strong>{_e(f['status'].capitalize())}</strong> ({_e(f['section'])}): {_e(f['message'])} "
+                         f"<strong>To do:</strong> {_e(f['what_to_do'])} "
+                         f'<span class="source">Source: {_s(f["citation"])}.</span></li>')
+        parts.append('<ol class="findings">' + "".join(items) + "</ol>")
+    else:
+        parts.append(f"<p>Guidance ({_e(rules)}): the plan touches no rule altox checks. That is a statement "
+                     "about altox's reading of the guidance, not a clearance.</p>")
     items = [("Plan", f"{_e(result.kind)}: {_e(length)}"),
-             ("Worst leg (model)", f"{s['worst_leg']} &ndash; {_e(s['worst_leg_label'])}: expected SaO2 "
-                                   f"{s['worst_sao2_pct']:.0f} % for the reference adult at rest on air"),
              ("Hypoxic dose", f"{s['hypoxic_dose_kmh']:.1f} km&middot;h above {s['dose_floor_m']:,.0f} m")]
     below = [f"{lvl} %: {_e(_fmt_h(s[f'hours_below_{lvl}_pct']))}" for lvl in _levels(result)]
     if below:
         items.append(("Time below SaO2 (reference adult)", "; ".join(below)))
-    cabin = [(int(k.split("_")[3]), v) for k, v in s.items() if k.startswith("hours_cabin_above_")]
+    cabin = [(int(k.split("_")[3]), v_) for k, v_ in s.items() if k.startswith("hours_cabin_above_")]
     if cabin:
-        items.append(("Time with the cabin above", "; ".join(f"{ft:,} ft: {_e(_fmt_h(v))}" for ft, v in cabin)))
-    broken = s["rules_broken"]
-    items.append(("Guidance", f"{_e(', '.join(result.rule_sets))}: <strong>{broken} not met</strong> by the plan, "
-                              f"{s['rules_touched']} touched (see &ldquo;Guidance&rdquo; below)"))
-    body = "\n".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in items)
-    return f'<section id="summary">\n<h2>Summary</h2>\n<dl class="summary">\n{body}\n</dl>\n</section>'
+        items.append(("Time with the cabin above", "; ".join(f"{ft:,} ft: {_e(_fmt_h(h))}" for ft, h in cabin)))
+    body = "\n".join(f"<dt>{k}</dt><dd>{val}</dd>" for k, val in items)
+    parts.append(f'<h3>Exposure</h3>\n<dl class="summary">\n{body}\n</dl>\n</section>')
+    return "\n".join(parts)
 
 
 def _chart(result, feet: bool, rule_sets) -> str:
@@ -524,23 +560,13 @@ def _decompression(result, rule_sets, review) -> str:
 
 
 def _guidance(result, rule_sets, missing) -> str:
-    parts = ['<section id="guidance">', "<h2>Guidance applied and its sources</h2>"]
+    parts = ['<section id="guidance">', "<h2>Guidance applied and its sources</h2>",
+             "<p>The findings are in the verdict at the top; here are the rule sets altox read the plan "
+             "against, with their sources.</p>"]
     if getattr(result, "guidance_notes", None):
+        parts.append("<h3>Not applied or not checked</h3>")
         parts.append('<ul class="plain">' + "".join(f"<li><strong>(!)</strong> {_e(n)}</li>"
                                                    for n in result.guidance_notes) + "</ul>")
-    if result.findings:
-        parts.append("<h3>What the plan touches</h3>")
-        items = []
-        for k, f in enumerate(result.findings):
-            met = f.status == "required-planned"
-            items.append(f'<li><span class="flag {"m" if met else "x"}">{FLAG_MET if met else FLAG_BROKEN}{k + 1}</span> '
-                         f"[{_e(f.rule_set_id)} {_e(f.section)}] {_e(f.message)} "
-                         f'<span class="source">Source: {_s(f.citation)}.</span></li>')
-        parts.append('<ol class="findings">' + "".join(items) + "</ol>")
-    else:
-        parts.append("<p>The plan touches no threshold of the rule sets applied. That is a statement about "
-                     "altox's reading of the guidance, not a clearance.</p>")
-    parts.append("<h3>Rule sets</h3>")
     for rs in rule_sets:
         ths = "".join(_threshold_item(th) for th in rs.thresholds)
         url = f" Official text: <code>{_e(rs.url)}</code>." if rs.url else ""
@@ -631,7 +657,7 @@ def build_report(result, *, plan=None, feet: bool = False, rule_sets=None, rule_
         "</header>",
         _caution_block("top"),
         "<main>",
-        _summary(result, feet),
+        _summary(result, feet, rule_sets),
         _chart(result, feet, rule_sets),
         _people(result),
         _legs(result, feet),

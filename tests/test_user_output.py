@@ -79,3 +79,59 @@ def test_the_check_sees_a_maintainer_note():
     assert any(re.search(p, text, re.I) for p in FORBIDDEN)
     assert any(n in text for n in DATA_FILES)
     assert _URL.findall(text) == ["learntoflyblog.com"]
+
+
+def _flat(text: str) -> str:
+    return " ".join(text.split())
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_the_answer_comes_first(demo_outputs, demo):
+    """At 80 columns the first 25 lines hold the verdict, the worst moment per person and every
+    finding with what to do; the rest follows in the order of a decision."""
+    out = demo_outputs[demo]
+    result, text = out["result"], out["terminal"]
+    lines = text.splitlines()
+    head = _flat("\n".join(lines[:25]))
+    assert "Guidance only" in _flat("\n".join(lines[:4]))            # the short caution, before any number
+    assert "Verdict" in head and "Worst moment:" in head
+    assert f"{result.summary['worst_sao2_pct']:.0f} %" in head
+    for m in result.members:
+        assert m["name"] in head, m["name"]
+    for k, f in enumerate(result.findings):
+        assert f"{'+' if f.status == 'required-planned' else 'X'}{k + 1} " in head
+        assert _flat(f.message) in head, f.message
+    assert "To do:" in head or not any(f.status != "required-planned" for f in result.findings)
+    order = ["Verdict", "Exposure", "Where and when", "Expected physiology", "Assumptions", "Sources",
+             "GUIDANCE ONLY"]
+    found = [text.index(word) for word in order]
+    assert found == sorted(found), list(zip(order, found))
+    if result.members:
+        assert text.index("Verdict") < text.index("People") < text.index("Where and when")
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_json_sections_follow_the_terminal_order(demo_outputs, demo):
+    from altox.render import JSON_SECTIONS
+
+    data = json.loads(demo_outputs[demo]["json"])
+    keys = [k for k in data if k in JSON_SECTIONS]
+    assert keys == [k for k in JSON_SECTIONS if k in data]
+    assert keys[:6] == ["plan", "kind", "source", "caution_short", "rule_sets", "verdict"]
+    v = data["verdict"]
+    assert [p["name"] for p in v["people"]] == ["reference adult"] + [m["name"] for m in data["members"]]
+    assert [f["number"] for f in v["findings"]] == list(range(1, len(data["findings"]) + 1))
+    assert all(f["what_to_do"] for f in v["findings"])
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_report_opens_with_the_verdict(demo_outputs, demo):
+    text = demo_outputs[demo]["html"]
+    at = [text.index(x) for x in ('id="caution-top"', "<h2>Verdict</h2>", 'id="chart"', 'id="people"',
+                                   'id="legs"', 'id="guidance"', 'id="assumptions"', 'id="caution-end"')]
+    assert at == sorted(at)
+    verdict = text[at[1]:at[2]]
+    for m in demo_outputs[demo]["result"].members:
+        assert m["name"] in verdict
+    for k, _ in enumerate(demo_outputs[demo]["result"].findings):
+        assert f"{k + 1}</span>" in verdict
