@@ -527,13 +527,15 @@ def _decompression(result, rule_sets, review) -> str:
             tuc = (f"&gt; {_dur_s(r['tuc_max_s'])}" if r["tuc_min_s"] is None
                    else f"{_dur_s(r['tuc_min_s'])} to {_dur_s(r['tuc_max_s'])}")
             times = [_num(r["minutes_to"].get(f"{c:.0f}"), "{:.1f} min") for c in cps]
-            crew = r["crew"]["oxygen_l"] if r["crew"] else None
-            pax = r["passengers"]["oxygen_l"] if r["passengers"] else None
+            crew = r["crew_cert"]["oxygen_l"] if r.get("crew_cert") else None
+            pax = r["passengers_cert"]["oxygen_l"] if r.get("passengers_cert") else None
             rows.append(([str(r["leg"]), _num(r["aircraft_ft"]), tuc, *times, _num(crew, "{:.1f}"),
                           _num(pax, "{:.1f}"), _num(r["oxygen_total_l"], "{:.0f}")], ""))
         cap = ("After a rapid decompression: time of useful consciousness (TUC) at rest on air, "
                + (f"emergency descent at {rate:,.0f} ft/min, " if rate else "")
-               + "oxygen per occupant on the way down (L)")
+               + "oxygen per occupant on the way down (L)"
+               + (f", at the minimum flow of {review['certification_basis']['standard']}"
+                  if review.get("certification_basis") else ""))
         parts.append(_table(cap, ["Leg", "Aircraft ft", "TUC"] + [f"To {c:,.0f} ft" for c in cps]
                             + ["Crew L each", "Others L each", "Total L"],
                             [True, True, True] + [True] * len(cps) + [True, True, True], rows))
@@ -541,12 +543,16 @@ def _decompression(result, rule_sets, review) -> str:
         notes = [f"Oxygen until the cabin is below {free['crew']:,.0f} ft for crew ({free['crew_from']}) and "
                  f"{free['passengers']:,.0f} ft for passengers ({free['passengers_from']}); "
                  f"{review['crew_count']} crew, {review['passenger_count']} others aboard.",
-                 f"altox's convention: {review['convention']['rule']}",
+                 (f"Litres on the basis of the certification standard {review['certification_basis']['standard']}, "
+                  f"a design standard: crew, {review['certification_basis']['crew']}; "
+                  f"{review['certification_basis']['passengers']}. {review['certification_basis']['model']}"
+                  if review.get("certification_basis") else f"altox's convention: {review['convention']['rule']}"),
                  f"TUC: {review['tuc_interpolation']}. {review['tuc_caution']} A rapid decompression may shorten "
                  "it by up to half.",
                  "Litres are per occupant at reference conditions, before any planning margin; certified "
                  "aircraft systems are sized by their own rules."] + list(review.get("notes", []))
-        if any(r[g] is not None and not r[g]["target_held"] for r in review["legs"] for g in ("crew", "passengers")):
+        if not review.get("certification_basis") and any(
+                r[g] is not None and not r[g]["target_held"] for r in review["legs"] for g in ("crew", "passengers")):
             notes.append("(!) On some legs the assumed device cannot hold the target at the top of the descent "
                          "(pressure breathing or a faster descent is needed).")
         parts.append('<ul class="plain">' + "".join(f"<li>{_e(n)}</li>" for n in notes) + "</ul>")
