@@ -420,7 +420,9 @@ def _risk(plan, person, rule_sets):
             day = np.array([d.day for d in plan.days])
             sleep = np.array([d.sleep_m for d in plan.days])
             start = max(plan.start_altitude_m, person.home_altitude_m) if person.home_altitude_m else plan.start_altitude_m
-            category, reasons, prophylaxis = risk_category(set(person.history), day, sleep, start, rs)
+            high = np.array([d.high_m if d.high_m is not None else d.sleep_m for d in plan.days])
+            category, reasons, prophylaxis = risk_category(set(person.history), day, sleep, start, rs,
+                                                           high_altitude_m=high)
             return {"risk_category": category, "risk_reasons": reasons, "prophylaxis": prophylaxis,
                     "risk_rule_set": rs.id}
     return {}

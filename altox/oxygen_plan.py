@@ -81,6 +81,15 @@ def _review_target_m(kind: str) -> tuple[float, dict]:
     return m, t
 
 
+def _at_once(rows) -> int:
+    """Most people on oxygen at the same time: the groups of one day or leg add up (crew and
+    passengers both on oxygen on a leg count together), the largest day or leg counts."""
+    per_leg: dict = {}
+    for row in rows:
+        per_leg[row["leg"]] = per_leg.get(row["leg"], 0) + int(row["people"])
+    return max(per_leg.values(), default=0)
+
+
 # -- oxygen review ----------------------------------------------------------------------------
 def oxygen_review(plan, result) -> dict:
     """Oxygen review of an evaluated plan.
@@ -116,11 +125,11 @@ def oxygen_review(plan, result) -> dict:
                                 f"{cyl['safety_margin_fraction']:.0%} margin"})
         devs = sorted({row["device"] for row in planned})
         for dev_id in devs:
-            users = max(row["people"] for row in planned if row["device"] == dev_id)
-            packing.append({"item": ox.get_device(dev_id)["label"], "quantity": users,
+            packing.append({"item": ox.get_device(dev_id)["label"],
+                            "quantity": _at_once(row for row in planned if row["device"] == dev_id),
                             "note": "one per person using it; carry spares"})
-        packing.append({"item": "regulator / flowmeter for the cylinder type", "quantity": max(
-            row["people"] for row in planned), "note": "one per person on oxygen at the same time"})
+        packing.append({"item": "regulator / flowmeter for the cylinder type", "quantity": _at_once(planned),
+                        "note": "one per person on oxygen at the same time"})
         packing.append({"item": "pulse oximeter", "quantity": 1, "note": "titrate flow to SpO2, not to this plan"})
     else:
         notes.append("The plan asks for no supplemental oxygen.")

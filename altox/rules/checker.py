@@ -506,7 +506,7 @@ def check_itinerary(day, sleep_altitude_m, high_altitude_m, start_altitude_m, ru
     return findings
 
 
-def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_set):
+def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_set, high_altitude_m=None):
     """Risk category of one party member under a guideline's risk table.
 
     Parameters
@@ -517,6 +517,9 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
         The itinerary, as for :func:`check_itinerary`.
     rule_set : str, path or RuleSet
         An expedition rule set with a ``risk_table``.
+    high_altitude_m : array of float, optional
+        Highest point of each day [m] (the very-rapid-ascent row reads the highest of it and
+        the sleeping altitude); the sleeping altitude where not given.
 
     Returns
     -------
@@ -539,6 +542,10 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
     nights = _nights(day, sleep_altitude_m, start_altitude_m)
     start = float(start_altitude_m)
     day1 = nights[0].sleep_m
+    days_arr = _float_array(day, "day")
+    top_of_day = _float_array(sleep_altitude_m, "sleep_altitude_m", days_arr.size)
+    if high_altitude_m is not None:
+        top_of_day = np.maximum(top_of_day, _float_array(high_altitude_m, "high_altitude_m", days_arr.size))
     max_sleep = max(n.sleep_m for n in nights)
 
     gain_th = rs.thresholds_by_check("sleep_gain")
@@ -573,6 +580,8 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
             return bool(_fast_days(nights, v, above)) and extra_ok
         if c == "fast_gain_without_extra_days":
             return bool(_fast_days(nights, v, above)) and not extra_ok
+        if c == "very_rapid_ascent":   # reading of the table's example: see docs/rules.md
+            return bool(np.any((days_arr < row.within_days) & (top_of_day >= v - _EPS_M)))
         raise AltoxError(f"risk table criterion {c!r} is not known to this checker", field="criterion")
 
     matched = [row for row in rs.risk_table.rows if applies(row)]

@@ -46,7 +46,7 @@ Category = Literal["low", "moderate", "high"]
 Criterion = Literal[
     "no_history_max_sleep_at_most", "gradual", "ams_day1_between", "no_ams_day1_above",
     "fast_gain_with_extra_days", "ams_day1_at_least", "hape_or_hace", "day1_above",
-    "fast_gain_without_extra_days", "history_ams", "day1_at_least",
+    "fast_gain_without_extra_days", "history_ams", "day1_at_least", "very_rapid_ascent",
 ]
 
 #: unit kind (for :func:`altox.units.parse_quantity`) of each quantity
@@ -75,7 +75,7 @@ EXPEDITION_CHECKS = {"sleep_gain", "rest_interval", "rest_per_gain"}
 CRITERIA_WITH_VALUE = {
     "no_history_max_sleep_at_most", "gradual", "ams_day1_between", "no_ams_day1_above",
     "fast_gain_with_extra_days", "ams_day1_at_least", "day1_above",
-    "fast_gain_without_extra_days", "day1_at_least",
+    "fast_gain_without_extra_days", "day1_at_least", "very_rapid_ascent",
 }
 CRITERIA_WITH_BAND = {"ams_day1_between"}
 
@@ -257,6 +257,7 @@ class RiskRow(_Strict):
     criterion: Criterion
     value: str | None = None
     band_top: str | None = None
+    within_days: int | None = Field(None, ge=1, le=365)   # very_rapid_ascent: reached before this day
     text: str = Field(min_length=1)
 
     @field_validator("value", "band_top")
@@ -272,6 +273,8 @@ class RiskRow(_Strict):
             raise ValueError(f"criterion {self.criterion!r} needs a value, e.g. '2,800 m'")
         if self.criterion in CRITERIA_WITH_BAND and self.band_top is None:
             raise ValueError(f"criterion {self.criterion!r} needs band_top, e.g. '2,800 m'")
+        if (self.criterion == "very_rapid_ascent") != (self.within_days is not None):
+            raise ValueError("criterion 'very_rapid_ascent' needs within_days (e.g. 7), and only it takes one")
         return self
 
     @property
