@@ -344,6 +344,9 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
                      "mountain model atmosphere unless a day says otherwise.")
     else:
         notes.append("A flight is acute exposure; cabin altitudes are pressure altitudes (ISA).")
+        from .yamlload import load_data_file
+
+        notes += [" ".join(c["text"].split()) for c in load_data_file("cautions")["flight"]]
     return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
                       samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes)
 

@@ -122,6 +122,7 @@ def decompression_review_renderables(review: dict, *, with_caution: bool = True)
         t = _table("After a rapid decompression", cols, caption=cap)
         for r in review["legs"]:
             tuc = (f"> {_dur(r['tuc_max_s'])}" if r["tuc_min_s"] is None
+                   else f"< {_dur(r['tuc_max_s'])} (!)" if r.get("tuc_position") == 1
                    else f"{_dur(r['tuc_min_s'])}-{_dur(r['tuc_max_s'])}")
             times = [_num(r["minutes_to"].get(f"{float(c):.0f}"), "{:.1f} min") for c in review["checkpoints_ft"]]
             crew = r["crew_cert"]["oxygen_l"] if r.get("crew_cert") else None
@@ -144,6 +145,9 @@ def decompression_review_renderables(review: dict, *, with_caution: bool = True)
         lines += [f"- {n}" for n in review["notes"]]
         held = [r for r in review["legs"] for g in ("crew", "passengers")
                 if r[g] is not None and not r[g]["target_held"]]
+        if any(r.get("tuc_position") == 1 for r in review["legs"]):
+            lines.append("- (!) TUC marked < is above the table's highest altitude: shorter than its last "
+                         "row, by an amount the table does not give (not held flat, not extrapolated).")
         if held and not basis:
             lines.append("- (!) On some legs the assumed device cannot hold the target at the top of the "
                          "descent (pressure breathing or a faster descent is needed).")
@@ -242,6 +246,8 @@ def room_renderables(res: dict) -> list:
 def decompression_renderables(res: dict) -> list:
     """Table of a ``decompress`` result."""
     tuc = (f"more than {_dur(res['tuc_max_s'])}" if res["tuc_min_s"] is None
+           else f"shorter than {_dur(res['tuc_min_s'])} to {_dur(res['tuc_max_s'])} (!) (above the "
+                "table's highest altitude; not extrapolated)" if res.get("tuc_position") == 1
            else f"{_dur(res['tuc_min_s'])} to {_dur(res['tuc_max_s'])}")
     rows = [("Cabin altitude after decompression", f"{res['altitude_ft']:,.0f} ft"),
             ("Time of useful consciousness", tuc)]

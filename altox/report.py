@@ -525,6 +525,7 @@ def _decompression(result, rule_sets, review) -> str:
         rows = []
         for r in review["legs"]:
             tuc = (f"&gt; {_dur_s(r['tuc_max_s'])}" if r["tuc_min_s"] is None
+                   else f"&lt; {_dur_s(r['tuc_max_s'])} (!)" if r.get("tuc_position") == 1
                    else f"{_dur_s(r['tuc_min_s'])} to {_dur_s(r['tuc_max_s'])}")
             times = [_num(r["minutes_to"].get(f"{c:.0f}"), "{:.1f} min") for c in cps]
             crew = r["crew_cert"]["oxygen_l"] if r.get("crew_cert") else None
@@ -551,6 +552,9 @@ def _decompression(result, rule_sets, review) -> str:
                  "it by up to half.",
                  "Litres are per occupant at reference conditions, before any planning margin; certified "
                  "aircraft systems are sized by their own rules."] + list(review.get("notes", []))
+        if any(r.get("tuc_position") == 1 for r in review["legs"]):
+            notes.append("(!) TUC marked < is above the table's highest altitude: shorter than its last row, "
+                         "by an amount the table does not give (not held flat, not extrapolated).")
         if not review.get("certification_basis") and any(
                 r[g] is not None and not r[g]["target_held"] for r in review["legs"] for g in ("crew", "passengers")):
             notes.append("(!) On some legs the assumed device cannot hold the target at the top of the descent "

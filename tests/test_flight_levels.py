@@ -107,7 +107,7 @@ def test_fl390_two_pilots_quick_donning_is_not_flagged_one_pilot_is():
 def test_above_fl250_names_the_ten_minute_supply_rule():
     got = _plan_status("FL260")
     status, message = got["91.211(b)(1)(i)"]
-    assert status == "required-not-planned" and "10-minute supply" in message
+    assert status == "required-not-planned" and "10 minutes of oxygen for each occupant" in message
     ok = _plan_status("FL260", "oxygen_carried: 15 min")
     assert ok["91.211(b)(1)(i)"][0] == "required-planned"
     assert "91.211(b)(1)(i)" not in _plan_status("FL250")

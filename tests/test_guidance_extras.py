@@ -74,3 +74,24 @@ def test_point_reads_a_flight_level_as_pressure_altitude():
     assert "geometric" in plain["altitude_reading"] and plain["barometric_mmhg"] > 282.2
     refused = CliRunner().invoke(app, ["point", "--altitude", "FL250", "--atmosphere", "mountain"])
     assert refused.exit_code == 2 and "flight level" in refused.output
+
+
+# -- cautions -------------------------------------------------------------------------------------
+def test_tuc_above_the_table_is_flagged_not_held_flat():
+    # FAA AC 61-107B Table 1-1 ends at 45,000 ft (9-15 s); above it altox says "shorter than"
+    res = CliRunner().invoke(app, ["decompress", "--altitude", "FL500", "--rate", "4,000 ft/min"],
+                             env={"COLUMNS": "80", "NO_COLOR": "1"})
+    assert res.exit_code == 0, res.output
+    text = " ".join(res.output.split())
+    assert "shorter than" in text and "not extrapolated" in text
+    inside = CliRunner().invoke(app, ["decompress", "--altitude", "FL410", "--rate", "4,000 ft/min"],
+                                env={"COLUMNS": "80", "NO_COLOR": "1"})
+    assert "shorter than" not in " ".join(inside.output.split())
+
+
+def test_flight_outputs_carry_the_diving_and_decompression_sickness_cautions(tmp_path):
+    path = tmp_path / "p.yaml"
+    path.write_text(ALL_ON_OXYGEN)
+    data = json.loads(CliRunner().invoke(app, ["plan", str(path), "--json", "--members", "0"]).output)
+    notes = " ".join(data["notes"])
+    assert "Flying after diving" in notes and "AIM 8-1-2" in notes and "Decompression sickness" in notes

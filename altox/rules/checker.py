@@ -120,7 +120,20 @@ def _fmt_list(values) -> str:
 
 
 def _on_legs(legs) -> str:
-    return ("on leg " if len(legs) == 1 else "on legs ") + _fmt_list(legs)
+    """'on leg 4', 'on legs 4 and 6', 'on legs 2 to 6' (runs of three or more joined)."""
+    legs = sorted(int(x) for x in legs)
+    parts, i = [], 0
+    while i < len(legs):
+        j = i
+        while j + 1 < len(legs) and legs[j + 1] == legs[j] + 1:
+            j += 1
+        if j - i >= 2:
+            parts.append(f"{legs[i]} to {legs[j]}")
+            i = j + 1
+        else:
+            parts.append(str(legs[i]))
+            i += 1
+    return ("on leg " if len(legs) == 1 else "on legs ") + _fmt_list(parts)
 
 
 def _band_words(th: Threshold) -> str:
@@ -336,9 +349,8 @@ def check_flight_levels(duration_h, aircraft_pressure_altitude_ft, leg, oxygen_u
         if th.check == "supply":
             need = th.supply_h
             if oxygen_carried_h is not None and oxygen_carried_h >= need - _EPS_H:
-                msg = (f"Guidance from {where} ({th.requirement}): {span}, and the plan states "
-                       f"{_fmt_min(oxygen_carried_h)} of oxygen carried for each occupant, at least "
-                       f"the {_fmt_min(need)} asked for, {_on_legs(band_legs)}.")
+                msg = (f"Guidance from {where} ({th.requirement}): {span}; the plan carries "
+                       f"{_fmt_min(oxygen_carried_h)} for each occupant, {_on_legs(band_legs)}.")
                 findings.append(_finding(rs, th, band_legs, "required-planned", msg))
             else:
                 carried = ("does not state the oxygen carried for each occupant"
@@ -354,8 +366,8 @@ def check_flight_levels(duration_h, aircraft_pressure_altitude_ft, leg, oxygen_u
         if ex is not None and pilots_at_controls >= ex.pilots_at_controls and (quick_donning or not ex.quick_donning):
             excused = band & (alt <= ex.up_to_ft + _EPS_FT if ex.up_to_ft is not None else True)
         short = band & ~covered & ~excused
-        crew = (f"{pilots_at_controls} pilot{'s' if pilots_at_controls != 1 else ''} at the controls, "
-                f"quick-donning masks {'stated' if quick_donning else 'not stated'}")
+        crew = (f"{pilots_at_controls} pilot{'s' if pilots_at_controls != 1 else ''}, "
+                f"{'quick-donning masks' if quick_donning else 'no quick-donning masks stated'}")
         if short.any():
             short_legs = sorted(set(legs[short].tolist()))
             why = ""
@@ -367,10 +379,10 @@ def check_flight_levels(duration_h, aircraft_pressure_altitude_ft, leg, oxygen_u
                    f"mask there ({crew}{why}), {_on_legs(short_legs)}.")
             findings.append(_finding(rs, th, short_legs, "required-not-planned", msg))
         else:
-            how = "its oxygen use covers the crew" if not excused.any() else (
+            how = "the crew is on oxygen" if not excused.any() else (
                 f"the exception applies ({crew})" if not covered.any() else
-                f"its oxygen use covers the crew or the exception applies ({crew})")
-            msg = f"Guidance from {where} ({th.requirement}): {span}, and {how}, {_on_legs(band_legs)}."
+                f"the crew is on oxygen or the exception applies ({crew})")
+            msg = f"Guidance from {where} ({th.requirement}): {span}; {how}, {_on_legs(band_legs)}."
             findings.append(_finding(rs, th, band_legs, "required-planned", msg))
     return findings
 
