@@ -198,6 +198,26 @@ def _spread_labels(fracs, gap):
 
 
 # -- the figure -------------------------------------------------------------------------------
+def _steady_only(sao2_pct, validity_status):
+    """Saturations with NaN (drawn as a gap) where there is no steady state."""
+    import numpy as np
+
+    from .validity import NO_STEADY_STATE
+
+    sat = np.array(sao2_pct, dtype=float)
+    if validity_status is not None:
+        sat[np.asarray(validity_status) == NO_STEADY_STATE] = np.nan
+    return sat
+
+
+def _runs_of(mask):
+    """(start, end) index pairs of the runs of True in a boolean array (end exclusive)."""
+    import numpy as np
+
+    edges = np.diff(np.concatenate(([0], np.asarray(mask, dtype=np.int8), [0])))
+    return list(zip(np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)))
+
+
 def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZE_IN):
     """A matplotlib :class:`~matplotlib.figure.Figure` (Agg canvas) of an evaluated plan.
 
@@ -336,8 +356,9 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
         secondary.yaxis.set_major_formatter(thousands)
 
         # -- SaO2 panel ----------------------------------------------------------------
-        ref = np.asarray(s["sao2_pct"], dtype=float)
-        members = [np.asarray(m["sao2_pct"], dtype=float) for m in result.member_samples.values()]
+        # no saturation where there is no steady state: a marked gap, never a line down to a few %
+        ref = _steady_only(s["sao2_pct"], s.get("validity_status"))
+        members = [_steady_only(m["sao2_pct"], m.get("validity_status")) for m in result.member_samples.values()]
         edges = np.append(t0, t1[-1])
         if members:
             stack = np.vstack(members)
@@ -362,8 +383,22 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
             handles += [Line2D([], [], color=_MEMBER, lw=0.7, alpha=0.55,
                                label=f"SaO2, each person ({len(members)})"),
                         Patch(facecolor=_BAND, edgecolor="none", label="range between the people")]
+        unsteady = np.zeros(t0.size, dtype=bool)
+        for v in [ref] + members:
+            unsteady |= np.isnan(v)
+        for a, b in _runs_of(unsteady):
+            ax_sat.axvspan(t0[a], t1[b - 1], facecolor="white", edgecolor=_INK, hatch="xx", lw=0.8,
+                           zorder=5).set_gid(f"altox-no-steady-state-{a}")
+            ax_sat.text((t0[a] + t1[b - 1]) / 2, 0.5, "no steady state", rotation=90, ha="center", va="center",
+                        transform=blended_transform_factory(ax_sat.transData, ax_sat.transAxes),
+                        fontsize=_LABEL_PT - 0.5, color=_INK, zorder=8,
+                        bbox=dict(boxstyle="square,pad=0.1", fc="white", ec="none"))
+        if unsteady.any():
+            handles.append(Patch(facecolor="white", edgecolor=_INK, hatch="xx", lw=0.8,
+                                 label="no steady state: no saturation shown"))
         levels = saturation_levels_pct(result)
-        low = min([float(ref.min())] + [float(m.min()) for m in members] + levels)
+        finite = [v[np.isfinite(v)] for v in [ref] + members]
+        low = min([float(v.min()) for v in finite if v.size] + levels + [100.0])
         ax_sat.set_ylim(max(0.0, np.floor(low / 5.0) * 5.0 - 2.0), 100.5)
         for lvl in levels:
             ax_sat.axhline(lvl, color=_LEVEL, lw=1.0, ls=(0, (1, 2)), zorder=3)

@@ -90,7 +90,7 @@ def fix(
                                     members=members, seed=seed, progress=update)
         finally:
             close()
-        summary = rp.compare(original, result.plan)
+        summary = rp.compare(original, result.plan, result.goal, members=members, seed=seed)
         if write is not None:
             write_atomic(write, result.text.encode("utf-8"))
         if json_out:

@@ -211,22 +211,53 @@ def range_cmd(
 
 
 def fitness_lines(results: list) -> list:
-    """Plain lines of fitness-to-fly results (shared by this command and `altox plan`)."""
+    """Plain lines of fitness-to-fly results (shared by this command and `altox plan`): the verdict first."""
     lines = []
     for r in results:
+        v = r["verdict"]
         head = r.get("name", "Passenger")
-        lines.append(f"{head}: cabin {r['cabin_altitude_ft']:,.0f} ft (ground values at "
-                     f"{r['ground_elevation_ft']:,.0f} ft)")
-        for key in ("regression", "model"):
-            est = r.get(key)
-            if not est:
-                continue
-            s = f", SaO2 {est['sao2_pct']:.0f} %" if "sao2_pct" in est else ""
-            lines.append(f"  {est['method']}: PaO2 {est['pao2_mmhg']:.1f} mmHg ({est['pao2_kpa']:.2f} kPa){s}; "
-                         f"BTS 2022: {est['bts']['reading']}")
-        lines += [f"  note: {n}" for n in r["notes"]]
+        lines.append(f"{head}: {v['text']} (guidance)")
+        lines.append(f"  Path: {v['path']}")
+        lines += [f"  Why: {reason}" for reason in v["reasons"]]
+        lines += [f"  Source: {src}" for src in v["sources"]]
+        if v["must_know"]:
+            lines.append("  What must be known: " + "; ".join(v["must_know"]))
+        reg = r.get("regression")
+        cabin = f"{r['cabin_altitude_ft']:,.0f} ft"
+        if reg:
+            lines.append(f"  Cabin: the regression is for {reg['valid_at_ft']:,.0f} ft, where it was derived; "
+                         f"this flight's cabin is {cabin} (ground values at {r['ground_elevation_ft']:,.0f} ft).")
+        else:
+            lines.append(f"  Cabin: {cabin} (ground values at {r['ground_elevation_ft']:,.0f} ft).")
+        m = r.get("model")
+        if m:
+            lines.append(f"  Context only (the verdict does not rest on it): {m['method']} at {cabin}: PaO2 {m['pao2_mmhg']:.1f} mmHg "
+                         f"({m['pao2_kpa']:.2f} kPa), SaO2 {m['sao2_pct']:.0f} %.")
+        if r.get("defaults_used"):
+            lines.append("  Defaults used: " + ", ".join(r["defaults_used"]))
+        lines += [f"  Note: {n}" for n in r["notes"]]
         lines.append(f"  {r['caution']}")
-    return lines
+    import textwrap
+
+    return [w for line in lines for w in textwrap.wrap(line, 80, subsequent_indent="    ", break_on_hyphens=False)]
+
+
+def _risk_factors(text):
+    """--risk-factors: None (unknown), [] ('none') or the named factors; a bad name is a usage error."""
+    from .errors import UnitError
+    from .individual import coefficients
+
+    if text is None:
+        return None
+    if text.strip().lower() == "none":
+        return []
+    known = coefficients()["fitness_to_fly"]["bts_2011_screening"]["risk_factors"]
+    names = [w.strip().lower().replace("-", "_") for w in text.split(",") if w.strip()]
+    bad = [n for n in names if n not in known]
+    if bad:
+        raise UnitError(f"--risk-factors: {bad[0]!r} is not a screening risk factor; expected 'none' or some of "
+                        + ", ".join(known) + ".")
+    return names
 
 
 @app.command("fitness-to-fly")
@@ -235,22 +266,30 @@ def fitness_cmd(
     pao2: Optional[str] = typer.Option(None, "--pao2", help="Ground arterial PO2 on air, with unit: 61mmHg, 8.1kPa."),
     fev1: Optional[str] = typer.Option(None, "--fev1", help="FEV1 as a fraction of predicted: 0.45 or '45 %'."),
     spo2: Optional[str] = typer.Option(None, "--spo2", help="Ground SpO2 on air: '91 %' or 0.91."),
-    cabin: str = typer.Option("8000ft", "--cabin", help="Cabin pressure altitude with unit (without a plan)."),
+    cabin: Optional[str] = typer.Option(None, "--cabin", help="Cabin pressure altitude with unit, without a "
+                                        "plan (default 8,000 ft, the maximum in normal operation)."),
     ground: str = typer.Option("0ft", "--ground", help="Elevation where the ground values were measured."),
-    age: Optional[str] = typer.Option(None, "--age", help="Age in years."),
+    age: Optional[str] = typer.Option(None, "--age", help="Age in years (below 16: the paediatric path)."),
+    risk: Optional[str] = typer.Option(None, "--risk-factors", help="Screening risk factors present, comma-"
+                                       "separated, or 'none' when all were checked: hypercapnia, fev1_below_50, "
+                                       "lung_cancer, restrictive, ventilator, cerebrovascular_or_cardiac, "
+                                       "recent_exacerbation. Not given: unknown."),
     json_out: bool = typer.Option(False, "--json", help="Print JSON instead of text."),
 ):
-    """Predicted PaO2/SpO2 at cabin altitude for passengers with lung disease, against BTS 2022 (guidance)."""
+    """One fitness-to-fly verdict by the published path (BTS screening, regression), with its reason (guidance)."""
 
     def body():
         from .errors import UnitError
-        from .individual import fitness_to_fly, occupant_fitness_to_fly
+        from .individual import default_cabin_ft, fitness_to_fly, occupant_fitness_to_fly
         from .units import M_PER_FT, parse_fraction, parse_quantity
 
         if file is not None:
             from .profile import load_plan
             from .timeline import expand
 
+            if cabin is not None:
+                raise UnitError(f"--cabin is for a passenger without a plan; {file} sets its own cabin "
+                                "altitude. Drop --cabin, or drop the plan file.")
             plan = load_plan(file)
             if plan.kind != "flight":
                 raise UnitError(f"{file}: fitness to fly reads a flight plan (kind: flight), not {plan.kind}.")
@@ -269,9 +308,11 @@ def fitness_cmd(
                 pao2_ground_mmhg=None if pao2 is None else parse_quantity(pao2, "pressure", field="--pao2"),
                 fev1_fraction=None if fev1 is None else parse_fraction(fev1, field="--fev1"),
                 spo2_ground=None if spo2 is None else parse_fraction(spo2, field="--spo2"),
-                cabin_altitude_ft=parse_quantity(cabin, "length", field="--cabin") / M_PER_FT,
+                cabin_altitude_ft=(default_cabin_ft() if cabin is None else
+                                   parse_quantity(cabin, "length", field="--cabin") / M_PER_FT),
                 ground_elevation_ft=parse_quantity(ground, "length", field="--ground") / M_PER_FT,
-                age_y=40.0 if age is None else _parse_number(age, "--age", 0, 110, "years"))]
+                age_y=None if age is None else _parse_number(age, "--age", 0, 110, "years"),
+                risk_factors=_risk_factors(risk))]
         if json_out:
             typer.echo(json.dumps(_jsonable(results if file else results[0]), indent=2))
             return

@@ -13,6 +13,7 @@ from .sampling import assess_along
 from .gas_exchange import inspired_po2
 from .atmosphere import barometric_pressure
 from .units import M_PER_FT
+from .validity import NO_STEADY_STATE, describe_samples
 
 #: rule sets applied when a plan names none (documented in docs/profiles.md)
 DEFAULT_RULES = {"expedition": ("wms-2024",), "flight": ("us-14cfr-91", "eu-nco")}
@@ -207,7 +208,6 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     """
     from .timeline import expand
     from .acclimatization import acclimatization_history
-    from .ventilation import model_coefficients
 
     tl = expand(plan)
     people = people_override if people_override is not None else _people(plan)
@@ -229,10 +229,12 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
 
     dt = np.asarray(tl.duration_h, dtype=float)
     floor = plan.dose_floor_m
-    # no resting steady state, the alveolar gas equation below zero, or beyond the validated range
-    min_pio2 = float(model_coefficients()["validity"]["min_inspired_po2_mmhg"]["value"])
-    valid = (np.asarray(res["solver_converged"]) & ~np.asarray(res["alveolar_po2_clamped"])
-             & (np.asarray(res["inspired_po2_mmhg"]) >= min_pio2))
+    # whether each value is a prediction (altox.validity): a value without a resting steady state
+    # is never shown as a saturation
+    status = np.asarray(res["validity_status"])
+    reasons = np.asarray(res["validity_reasons"])
+    pio2_all = np.asarray(res["inspired_po2_mmhg"])
+    valid = status < NO_STEADY_STATE
     dose_kmh = np.cumsum(np.maximum(tl.altitude_m - floor, 0.0) / 1000.0 * dt)
     levels = sorted(plan.saturation_levels, reverse=True)
     ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
@@ -267,6 +269,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
             leg[k] = float(ref[k][worst])
         leg["night_sao2_pct"] = float(ref["sao2_pct"][asleep].min()) if asleep.size else None
         leg["model_valid"] = bool(np.all(valid[:, idx]))
+        leg.update(describe_samples(status[0, idx], reasons[0, idx], pio2_all[0, idx],
+                                    age_y=REFERENCE_PERSON["age_y"]))
         leg["hypoxic_dose_kmh"] = float(dose_kmh[idx[-1]])
         for lvl in levels:
             leg[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][idx[-1]])
@@ -295,9 +299,16 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     member_samples = {}
     for j, p in enumerate(everyone[1:], start=1):
         s = res["sao2_pct"][j]
+        state = describe_samples(status[j], reasons[j], pio2_all[j], age_y=p.age_y)
+        without = status[j] == NO_STEADY_STATE
+        lowest = int(np.flatnonzero(without)[np.argmin(pio2_all[j][without])]) if without.any() else int(np.argmin(s))
         entry = {"name": p.name, "role": p.role, "age_y": p.age_y, "hemoglobin_g_dl": p.hemoglobin_g_dl,
-                 "min_sao2_pct": float(s.min()), "min_sao2_leg": int(tl.leg[int(np.argmin(s))]) + 1,
-                 "min_o2_content_ml_dl": float(res["o2_content_ml_dl"][j].min())}
+                 # no saturation where there is no steady state: the time-limited state instead
+                 "min_sao2_pct": None if without.any() else float(s.min()),
+                 "min_sao2_leg": int(tl.leg[lowest]) + 1,
+                 "min_o2_content_ml_dl": None if without.any() else float(res["o2_content_ml_dl"][j].min()),
+                 **state,
+                 "legs_without_steady_state": sorted({int(v) + 1 for v in tl.leg[without]})}
         for lvl in levels:
             entry[f"hours_below_{round(100 * lvl)}_pct"] = float(np.sum(dt * (s < 100 * lvl)))
         if plan.kind == "expedition":
@@ -305,15 +316,25 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
             entry["acetazolamide"] = p.acetazolamide
             entry.update(_risk(plan, p, rule_sets))
         members.append(entry)
-        member_samples[p.name] = {k: res[k][j] for k in ("sao2_pct", "arterial_po2_mmhg", "o2_content_ml_dl")}
+        member_samples[p.name] = {k: res[k][j] for k in ("sao2_pct", "arterial_po2_mmhg", "o2_content_ml_dl",
+                                                         "validity_status")}
 
-    worst_leg = min(legs, key=lambda leg: leg["sao2_pct"] if leg["night_sao2_pct"] is None
-                    else min(leg["sao2_pct"], leg["night_sao2_pct"]))
+    # the worst leg: one without a steady state first (the lowest PIO2), else the lowest saturation
+    def severity(leg):
+        if leg["time_limited"]:
+            return (0, leg["inspired_po2_mmhg"])
+        return (1, leg["sao2_pct"] if leg["night_sao2_pct"] is None else min(leg["sao2_pct"], leg["night_sao2_pct"]))
+
+    worst_leg = min(legs, key=severity)
+    no_steady = [leg["leg"] for leg in legs if leg["time_limited"]]
     broken = [f for f in findings if f.status in ("required-not-planned", "limit-exceeded")]
     summary = {
         "worst_leg": worst_leg["leg"], "worst_leg_label": worst_leg["label"],
-        "worst_sao2_pct": worst_leg["sao2_pct"] if worst_leg["night_sao2_pct"] is None
-        else min(worst_leg["sao2_pct"], worst_leg["night_sao2_pct"]),
+        "worst_sao2_pct": None if worst_leg["time_limited"] else severity(worst_leg)[1],
+        "worst_time_limited": worst_leg["time_limited"],
+        "no_steady_state_legs": no_steady,
+        "extrapolated_legs": [leg["leg"] for leg in legs if leg["validity_status"] == "extrapolated"],
+        "outside_validated_range": bool(np.any(status[0] > 0)),
         "total_hours": float(dt.sum()),
         "hypoxic_dose_kmh": float(dose_kmh[-1]), "dose_floor_m": float(floor),
         "rules_broken": len(broken), "rules_touched": len(findings),
@@ -326,19 +347,14 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     samples = {"time_h": tl.time_h, "duration_h": dt, "leg": tl.leg + 1, "altitude_m": tl.altitude_m,
                "aircraft_altitude_m": tl.aircraft_altitude_m, "sleeping": tl.sleeping,
                "oxygen_code": tl.oxygen, "cabin_pressure_altitude_ft": tl.cabin_pressure_altitude_ft,
-               **ref, "hypoxic_dose_kmh": dose_kmh}
+               **ref, "validity_status": status[0], "hypoxic_dose_kmh": dose_kmh}
     notes = ["Physiology on air for a resting reference adult (age 40, Hb 14.5 g/dL) unless a member is "
              "named; planned supplemental oxygen is flagged, not applied.",
              "Per-leg values are those of the worst awake sample (lowest SaO2) in the leg; 'night' is the "
              "lowest while asleep, with the lower chemoreflex drive of sleep (docs/individual.md).",
              "Members' values include their age, hemoglobin, ventilatory response category, acetazolamide, "
              "and a venous admixture fitted to a stated home or ground SpO2/PaO2 where given."]
-    invalid_legs = [leg["leg"] for leg in legs if not leg["model_valid"]]
-    if invalid_legs:
-        notes.append("OUTSIDE THE MODEL on leg(s) " + ", ".join(map(str, invalid_legs)) + f": breathing air there "
-                     f"gives an inspired PO2 below {min_pio2:.0f} mmHg, lower than any published measurement the "
-                     "model is checked against (the highest summit); on acute exposure consciousness is lost within "
-                     "minutes. The numbers shown are not a prediction.")
+    notes.extend(_validity_notes(legs, members))
     if plan.kind == "expedition":
         notes.append("Acclimatization carries across days from each person's home altitude; "
                      "mountain model atmosphere unless a day says otherwise.")
@@ -349,6 +365,25 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         notes += [" ".join(c["text"].split()) for c in load_data_file("cautions")["flight"]]
     return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
                       samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes)
+
+
+def _validity_notes(legs, members) -> list[str]:
+    """Plan notes: the legs without a steady state, extrapolated legs, and people outside the data."""
+    out = []
+    invalid_legs = [leg for leg in legs if not leg["model_valid"]]
+    if invalid_legs:
+        worst = min(invalid_legs, key=lambda leg: leg["inspired_po2_mmhg"])
+        out.append("OUTSIDE THE MODEL on leg(s) " + ", ".join(str(leg["leg"]) for leg in invalid_legs) + ": "
+                   + " ".join(worst["validity_notes"]) + " No saturation is shown there.")
+    extrapolated = [leg for leg in legs if leg["validity_status"] == "extrapolated"]
+    if extrapolated:
+        out.append("Extrapolated on leg(s) " + ", ".join(str(leg["leg"]) for leg in extrapolated) + ": "
+                   + " ".join(extrapolated[0]["validity_notes"]))
+    for m in members:
+        age_notes = [n for n in m["validity_notes"] if n.startswith("Extrapolated: age")]
+        if age_notes:
+            out.append(f"{m['name']}: {age_notes[0]}")
+    return out
 
 
 def plan_extras(plan, result, *, members: int | None = None, seed: int | None = None, progress=None) -> dict:

@@ -42,7 +42,7 @@ import numpy as np
 
 from .errors import OutOfRangeError
 
-__all__ = ["coefficients", "hvr_gain_scale", "person_kwargs", "people_kwargs", "fit_shunt_fraction",
+__all__ = ["default_cabin_ft", "coefficients", "hvr_gain_scale", "person_kwargs", "people_kwargs", "fit_shunt_fraction",
            "dillard_pao2_altitude_mmhg", "fitness_to_fly", "occupant_fitness_to_fly",
            "SLEEP", "FactorError"]
 
@@ -315,14 +315,16 @@ def _bts(pao2_mmhg=None, spo2_pct=None) -> dict:
     met = all(c["meets"] for c in checks.values()) if checks else None
     return {"checks": checks, "meets_thresholds": met,
             "reading": (None if met is None else
-                        "at or above the thresholds for 'in-flight oxygen not required'" if met else
-                        "below a threshold: the statement advises a hypoxic challenge test with oxygen"),
+                        f"at or above the hypoxic challenge thresholds (PaO2 {b['pao2_kpa']:g} kPa, SpO2 "
+                        f"{b['spo2_pct']:g} %)" if met else
+                        "below a hypoxic challenge threshold (on a test, the statement then advises a "
+                        "repeat test with oxygen)"),
             "source": b["citation"].strip(), "applies_to": b["applies_to"]}
 
 
 def fitness_to_fly(*, pao2_ground_mmhg=None, fev1_fraction=None, spo2_ground=None,
-                   cabin_altitude_ft=8000.0, ground_elevation_ft=0.0, age_y=DEFAULT_AGE_Y,
-                   hb_g_dl=None) -> dict:
+                   cabin_altitude_ft=8000.0, ground_elevation_ft=0.0, age_y=None,
+                   hb_g_dl=None, risk_factors=None) -> dict:
     """Predicted PaO2 and SpO2 at a cabin altitude for a passenger with lung disease, against BTS 2022.
 
     Two estimates, each compared with the thresholds the BTS clinical statement applies to a
@@ -347,13 +349,31 @@ def fitness_to_fly(*, pao2_ground_mmhg=None, fev1_fraction=None, spo2_ground=Non
         Cabin pressure altitude. [ft]
     ground_elevation_ft : float
         Pressure altitude where the ground values were measured. [ft]
-    age_y, hb_g_dl : float
+    age_y, hb_g_dl : float, optional
+        Not given: the reference adult's (age 40, Hb 14.5 g/dL), listed in ``defaults_used``.
+        An age below 16 takes the paediatric path.
+    risk_factors : iterable of str, optional
+        The additional risk factors of the BTS screening table present (keys of
+        ``fitness_to_fly.bts_2011_screening.risk_factors``); an empty list means all were
+        checked and none is present; ``None`` means not stated (unknown).  An FEV1 below 50 %
+        of predicted counts whatever is passed.
 
     Returns
     -------
     dict
-        ``regression`` and ``model`` (each with ``pao2_mmhg``, ``pao2_kpa``, ``sao2_pct`` where
-        known and ``bts``), ``notes`` and ``caution``.
+        ``verdict`` (``level``: 'not required', 'not concluded', 'hypoxic challenge test' or
+        'in-flight oxygen'; ``text``, ``reasons``, ``path``, ``must_know``), ``steps`` (each path
+        applied, with its source), ``regression`` and ``model`` (each with ``pao2_mmhg``,
+        ``pao2_kpa``, ``sao2_pct`` where known and ``bts``; the model is context only),
+        ``defaults_used``, ``notes`` and ``caution``.
+
+    Notes
+    -----
+    One verdict, the most cautious of the published paths that apply: the ground-SpO2 screening
+    table of the BTS 2011 recommendations (risk factors not stated count as unknown, so a
+    borderline SpO2 never gives "not required"), and Dillard's regression at the cabin altitude
+    it was derived for (8,000 ft) against the BTS 2022 hypoxic challenge thresholds.  A
+    regression estimate alone never gives "not required"; nor does the chain.
 
     Raises
     ------
@@ -373,6 +393,11 @@ def fitness_to_fly(*, pao2_ground_mmhg=None, fev1_fraction=None, spo2_ground=Non
     if fev1_fraction is not None and not 0.0 < fev1_fraction <= 1.5:
         raise FactorError(f"FEV1 {fev1_fraction:g} is not a fraction of predicted in (0, 1.5].",
                           field="fev1", value=fev1_fraction, expected="a fraction such as 0.45")
+    age_given = age_y is not None
+    age_y = float(age_y) if age_given else DEFAULT_AGE_Y
+    if not 0.0 < age_y <= 110.0:
+        raise FactorError(f"age {age_y:g} years is outside 0-110.", field="age", value=age_y,
+                          expected="0 to 110 years")
     if not -2000.0 <= cabin_altitude_ft <= 20000.0:
         raise FactorError(f"cabin altitude {cabin_altitude_ft:g} ft is outside -2,000 to 20,000 ft.",
                           field="cabin_altitude", value=cabin_altitude_ft, expected="-2,000 to 20,000 ft")
@@ -404,15 +429,118 @@ def fitness_to_fly(*, pao2_ground_mmhg=None, fev1_fraction=None, spo2_ground=Non
         qs = _fit_at_pressure(spo2_ground, "sao2", pb_ground, age_y, hb_g_dl)
     r = assess(pb_mmhg=pb_cabin, atmosphere="isa", f_ventilatory=0.0, f_renal=0.0, age_y=age_y,
                hb_g_dl=hb_g_dl, shunt_fraction=qs)
-    out["model"] = {"method": "altox chain, venous admixture fitted to the ground value, acute exposure",
+    out["model"] = {"method": "altox chain (venous admixture fitted to the ground value, acute exposure)",
                     "shunt_fraction": qs, "pao2_mmhg": r["arterial_po2_mmhg"],
                     "pao2_kpa": r["arterial_po2_mmhg"] / MMHG_PER_KPA, "sao2_pct": r["sao2_pct"],
                     "bts": _bts(pao2_mmhg=r["arterial_po2_mmhg"], spo2_pct=r["sao2_pct"])}
+    out["model"]["role"] = "context only: never the basis of the verdict"
+    out["defaults_used"] = ([] if age_given else [f"age {DEFAULT_AGE_Y:g} years (default)"]) + (
+        [] if hb_g_dl is not None else ["hemoglobin 14.5 g/dL (default)"])
+    out.update(_verdict(pao2_ground_mmhg, fev1_fraction, spo2_ground, age_y if age_given else None,
+                        risk_factors, out["regression"], ground_elevation_ft))
     out["notes"] = notes + ["The BTS thresholds apply to a hypoxic challenge test; these are "
                             "predictions, compared with them for guidance only."]
     out["caution"] = ("Guidance only: not a hypoxic challenge test and not a clearance to fly. The "
                       "passenger's respiratory physician and the airline's medical service decide.")
     return out
+
+
+def default_cabin_ft() -> float:
+    """The cabin altitude assumed without a plan: 8,000 ft, the maximum in normal operation (14 CFR 25.841)."""
+    return float(coefficients()["fitness_to_fly"]["cabin_default_ft"]["value"])
+
+
+_LEVELS = ("not required", "not concluded", "hypoxic challenge test", "in-flight oxygen")
+
+
+def _verdict(pao2_mmhg, fev1_fraction, spo2_ground, age_y, risk_factors, regression,
+             ground_elevation_ft=0.0) -> dict:
+    """One verdict from the published paths that apply (see :func:`fitness_to_fly`)."""
+    from .units import MMHG_PER_KPA
+
+    ftf = coefficients()["fitness_to_fly"]
+    scr, ped, bts = ftf["bts_2011_screening"], ftf["paediatric"], ftf["bts_2022"]
+    cite = lambda c: " ".join(c.split()).rstrip(".")  # noqa: E731
+    steps, must_know = [], []
+    if age_y is not None and age_y < ped["child_below_age_y"]:
+        steps.append({"path": "paediatric", "level": "hypoxic challenge test",
+                      "finding": (f"age {age_y:g}: the adult screening table and regressions do not apply; a "
+                                  "paediatric respiratory assessment decides, with a hypoxic challenge test "
+                                  f"(in-flight oxygen if SpO2 falls below {ped['hct_spo2_pct']:.0f} % on 15 % "
+                                  f"oxygen). {bts['children_note']}"),
+                      "source": cite(ped["citation"])})
+        return _combine(steps, must_know)
+    if age_y is None:
+        must_know.append("age (a child takes the paediatric path)")
+    if spo2_ground is not None:
+        spo2 = 100.0 * float(spo2_ground)
+        names = scr["risk_factors"]
+        present = set(risk_factors or ())
+        unknown_keys = [] if risk_factors is not None else [k for k in names if k != "fev1_below_50"]
+        if fev1_fraction is not None:
+            if fev1_fraction < scr["fev1_risk_fraction"]:
+                present.add("fev1_below_50")
+        elif risk_factors is None:
+            unknown_keys.insert(1, "fev1_below_50")
+        src = cite(scr["citation"])
+        if spo2 > scr["no_oxygen_above_pct"]:
+            step = ("not required", f"ground SpO2 {spo2:.0f} % is above {scr['no_oxygen_above_pct']:.0f} %: "
+                    "in-flight oxygen not required by the screening")
+        elif spo2 < scr["borderline_from_pct"]:
+            step = ("in-flight oxygen", f"ground SpO2 {spo2:.0f} % is below {scr['borderline_from_pct']:.0f} %: "
+                    "in-flight oxygen")
+        elif present:
+            step = ("hypoxic challenge test",
+                    f"ground SpO2 {spo2:.0f} % is in the {scr['borderline_from_pct']:.0f}-"
+                    f"{scr['no_oxygen_above_pct']:.0f} % band with a risk factor ("
+                    + ", ".join(names[k] for k in sorted(present) if k in names) + "): hypoxic challenge test")
+        elif unknown_keys:
+            step = ("not concluded",
+                    f"ground SpO2 {spo2:.0f} % is in the {scr['borderline_from_pct']:.0f}-"
+                    f"{scr['no_oxygen_above_pct']:.0f} % band and the risk factors are not stated: a hypoxic "
+                    "challenge test unless every one of them is excluded")
+            must_know += [names[k] for k in unknown_keys]
+        else:
+            step = ("not required", f"ground SpO2 {spo2:.0f} % is in the {scr['borderline_from_pct']:.0f}-"
+                    f"{scr['no_oxygen_above_pct']:.0f} % band with no risk factor: in-flight oxygen not required")
+        finding = step[1]
+        if abs(ground_elevation_ft) > 1000.0:
+            finding += (f" (measured at {ground_elevation_ft:,.0f} ft; the table is for sea-level values, and a "
+                        "reading taken higher is lower, so this errs on the cautious side)")
+        steps.append({"path": "ground SpO2 screening", "level": step[0], "finding": finding, "source": src})
+    if regression:
+        p = regression["pao2_mmhg"]
+        kpa = p / MMHG_PER_KPA
+        below = kpa < bts["pao2_kpa"]
+        steps.append({"path": f"regression on ground PaO2 and FEV1 at {regression['valid_at_ft']:,.0f} ft",
+                      "level": "in-flight oxygen" if below else "hypoxic challenge test",
+                      "finding": (f"predicted PaO2 at {regression['valid_at_ft']:,.0f} ft {p:.1f} mmHg "
+                                  f"({kpa:.2f} kPa) is {'below' if below else 'at or above'} "
+                                  f"{bts['pao2_kpa']:g} kPa: "
+                                  + ("in-flight oxygen, its flow set by a hypoxic challenge test with oxygen"
+                                     if below else "a prediction, not a test; a hypoxic challenge test "
+                                     "confirms")),
+                      "source": cite(regression["source"]) + "; thresholds: " + cite(bts["citation"])})
+    elif pao2_mmhg is not None and spo2_ground is None:
+        must_know.append("FEV1 (for the regression) or ground SpO2 (for the screening)")
+    if not steps:
+        steps.append({"path": "none", "level": "not concluded",
+                      "finding": "no published path applies to the values given", "source": ""})
+    return _combine(steps, must_know)
+
+
+def _combine(steps, must_know) -> dict:
+    level = max((s["level"] for s in steps), key=_LEVELS.index)
+    texts = {"not required": "IN-FLIGHT OXYGEN NOT REQUIRED by the screening",
+             "not concluded": "NOT CONCLUDED: hypoxic challenge test unless the facts below rule it out",
+             "hypoxic challenge test": "HYPOXIC CHALLENGE TEST before flying",
+             "in-flight oxygen": "IN-FLIGHT OXYGEN"}
+    deciding = [s for s in steps if s["level"] == level]
+    return {"verdict": {"level": level, "text": texts[level], "path": " + ".join(s["path"] for s in steps),
+                        "reasons": [s["finding"] for s in deciding],
+                        "sources": list(dict.fromkeys(s["source"] for s in deciding if s["source"])),
+                        "must_know": list(must_know)},
+            "steps": steps}
 
 
 def _fit_at_pressure(target, kind, pb_mmhg, age_y, hb_g_dl):
@@ -429,8 +557,8 @@ def occupant_fitness_to_fly(occupant, cabin_altitude_ft, ground_elevation_ft=0.0
     res = fitness_to_fly(pao2_ground_mmhg=occupant.ground_pao2_mmhg, fev1_fraction=occupant.fev1_fraction,
                          spo2_ground=occupant.ground_spo2, cabin_altitude_ft=cabin_altitude_ft,
                          ground_elevation_ft=ground_elevation_ft,
-                         age_y=occupant.age_y if occupant.age_y is not None else DEFAULT_AGE_Y,
-                         hb_g_dl=occupant.hemoglobin_g_dl)
+                         age_y=occupant.age_y, hb_g_dl=occupant.hemoglobin_g_dl,
+                         risk_factors=getattr(occupant, "risk_factors", None))
     res["name"] = occupant.name
     res["lung_disease"] = occupant.lung_disease
     return res

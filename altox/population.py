@@ -256,11 +256,11 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     central = knots.interpolate(np.asarray(cres["sao2_pct"]))
     # where the central solve leaves the model (no steady state, alveolar PO2 clamped at zero, inspired
     # PO2 below the validated floor) the numbers are not a prediction: carried per sample and per leg
-    from .ventilation import model_coefficients
+    # (altox.validity: acute exposure in the time-of-useful-consciousness regime counts too)
+    from .validity import NO_STEADY_STATE, limits
 
-    min_pio2 = float(model_coefficients()["validity"]["min_inspired_po2_mmhg"]["value"])
-    valid_k = (np.asarray(cres["solver_converged"]) & ~np.asarray(cres["alveolar_po2_clamped"])
-               & (np.asarray(cres["inspired_po2_mmhg"]) >= min_pio2))
+    min_pio2 = limits()["min_inspired_po2_mmhg"]
+    valid_k = np.asarray(cres["validity_status"]) < NO_STEADY_STATE
     valid = knots.interpolate_flag(valid_k, combine=np.logical_and)
     member_kw = {k: np.stack([d[1][k] for d in drawn])[:, :, None] for k in drawn[0][1]}  # (P, n, 1)
     total = n_knots + n_samples
@@ -314,8 +314,9 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     outside = sorted({leg["leg"] for person in people_out for leg in person["legs"] if not leg["model_valid"]})
     if outside:
         notes.insert(0, "OUTSIDE THE MODEL on leg(s) " + ", ".join(map(str, outside)) + ": breathing air there "
-                     f"gives an inspired PO2 below {min_pio2:.0f} mmHg or no resting steady state; the ranges "
-                     "shown there (marked ?) are not a prediction.")
+                     f"gives no resting steady state (acute exposure at 20,000 ft or more, where the time of useful "
+                     f"consciousness is minutes, or an inspired PO2 below {min_pio2:.0f} mmHg); no range is "
+                     "shown there (marked ?): it would not be a prediction.")
     return {"n": int(n), "seed": seed, "percentiles": p.tolist(), "time_h": np.asarray(tl.time_h),
             "duration_h": np.asarray(tl.duration_h), "leg": np.asarray(tl.leg) + 1,
             "altitude_m": np.asarray(tl.altitude_m),

@@ -542,6 +542,8 @@ class LakeLouise(_Model):
 
 HapeSymptom = Literal["dyspnoea_at_rest", "cough", "weakness", "chest_tightness"]
 HapeSign = Literal["crackles", "central_cyanosis", "tachypnoea", "tachycardia"]
+FlightRiskFactor = Literal["hypercapnia", "fev1_below_50", "lung_cancer", "restrictive", "ventilator",
+                           "cerebrovascular_or_cardiac", "recent_exacerbation"]
 _WORD_ALIASES = {"dyspnea_at_rest": "dyspnoea_at_rest", "tachypnea": "tachypnoea",
                  "decreased_exercise_performance": "weakness", "chest_congestion": "chest_tightness",
                  "wheezing": "crackles", "cyanosis": "central_cyanosis"}
@@ -850,6 +852,11 @@ class Occupant(_Model):
                                                        {"type": "null"}],
                                              "examples": [0.45, "45 %"]})] = Field(
         None, alias="fev1", description="FEV1 as a fraction of predicted. [fraction]")
+    risk_factors: Annotated[Optional[list[FlightRiskFactor]], BeforeValidator(_words)] = Field(
+        None, description="Additional risk factors of the air-travel screening present: hypercapnia, "
+        "fev1_below_50, lung_cancer, restrictive, ventilator, cerebrovascular_or_cardiac, "
+        "recent_exacerbation; [] when all were checked and none is present; left out, they count "
+        "as unknown.")
 
 
 class Leg(_Model):

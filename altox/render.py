@@ -177,10 +177,53 @@ def point_table(result: dict, assumptions: list[str], validity: dict | None = No
 # -- plans ------------------------------------------------------------------------------------
 FLAG_BROKEN = "X"   # the plan does not meet this guidance
 FLAG_MET = "+"      # guidance asks for oxygen here and the plan provides it
-OUTSIDE_MODEL = "?"  # the leg leaves the model's validity (see the notes)
+OUTSIDE_MODEL = "?"  # the leg leaves the model's validity: no steady state (see the notes)
+EXTRAPOLATED_MARK = "~"  # a steady state beyond the published data (see the notes)
 FLAG_LEGEND = (f"Flags: {FLAG_BROKEN}n = guidance n (listed below) not met by the plan; "
                f"{FLAG_MET}n = guidance n asks for oxygen here and the plan provides it; "
-               f"{OUTSIDE_MODEL} = outside the model (see notes).")
+               f"{OUTSIDE_MODEL} = outside the model, no steady state (no saturation shown; see notes); "
+               f"{EXTRAPOLATED_MARK} = extrapolated beyond the published data (see notes).")
+
+
+def validity_mark(leg: dict) -> str:
+    """The validity mark of a leg for the flags column: '?', '~' or ''."""
+    if not leg.get("model_valid", True):
+        return OUTSIDE_MODEL
+    return EXTRAPOLATED_MARK if leg.get("validity_status") == "extrapolated" else ""
+
+
+#: per-leg and per-sample values that exist only at a resting steady state
+PLAN_STEADY_STATE_KEYS = ("alveolar_pco2_mmhg", "alveolar_po2_mmhg", "arterial_po2_mmhg", "arterial_ph", "sao2_pct",
+                          "night_sao2_pct", "o2_content_ml_dl")
+
+
+def shown_leg(leg: dict) -> dict:
+    """A leg as shown to people: without a steady state its steady-state values are None (the
+    ``time_limited`` text stands in their place); every back end reads legs through this."""
+    if not leg.get("time_limited"):
+        return leg
+    return {**leg, **{k: None for k in PLAN_STEADY_STATE_KEYS if k in leg}}
+
+
+def _timeline_rows(result) -> list[dict]:
+    """Per-sample rows; where a sample has no steady state its steady-state values are None."""
+    from .validity import NO_STEADY_STATE, STATUS_NAMES
+
+    samples = result.samples
+    rows = []
+    for i in range(len(samples["time_h"])):
+        row = {k: v[i] for k, v in samples.items()}
+        if "validity_status" in row:
+            code = int(row["validity_status"])
+            row["validity_status"] = STATUS_NAMES[code]
+            if code == NO_STEADY_STATE:
+                row.update({k: None for k in PLAN_STEADY_STATE_KEYS if k in row})
+        rows.append(row)
+    return rows
+
+
+def _num(value, fmt: str = "{:.0f}", none: str = "-") -> str:
+    return none if value is None else fmt.format(value)
 
 
 def _flag_text(result, leg):
@@ -217,8 +260,11 @@ def verdict_renderables(result, verdict: dict) -> list:
     out = [Text("Verdict", style="bold")]
     state = "asleep" if w["asleep"] else "awake"
     where = w["label"] if w["label"].lower().startswith("leg") else f"{w['label']} (leg {w['leg']})"
-    out.append(Text(f"Worst moment: {where}: expected SaO2 {w['sao2_pct']:.0f} % "
-                    f"{state}, reference adult at rest on air."))
+    if w.get("time_limited"):   # no steady state: never a saturation
+        out.append(Text(f"Worst moment: {where}: {w['time_limited']}, reference adult on air."))
+    else:
+        out.append(Text(f"Worst moment: {where}: expected SaO2 {w['sao2_pct']:.0f} % "
+                        f"{state}, reference adult at rest on air."))
     people = verdict["people"]
     if len(people) > 1:
         expedition = result.kind == "expedition"
@@ -233,8 +279,15 @@ def verdict_renderables(result, verdict: dict) -> list:
             rng = "-" if p["range_pct"] is None else f"{p['range_pct'][0]:.0f}-{p['range_pct'][1]:.0f}"
             state = "-" if p["asleep"] is None else ("asleep" if p["asleep"] else "awake")
             last = (p["risk_category"] or "-") if expedition else p["role"]
-            table.add_row(p["name"], str(p["leg"]), f"{p['sao2_pct']:.0f}", rng, state, last)
+            table.add_row(p["name"], str(p["leg"]), saturation_text(p["sao2_pct"], p.get("time_limited") and "none",
+                                                                     unit=""), rng, state, last)
         out.append(table)
+        limited: dict[tuple, list[str]] = {}
+        for p in people:
+            if p.get("time_limited"):
+                limited.setdefault((p["leg"], p["time_limited"]), []).append(p["name"])
+        for (leg_no, text), names in limited.items():
+            out.append(Text(f"SaO2 none for {', '.join(names)}: on leg {leg_no}, {text}."))
     c = verdict["counts"]
     rules = ", ".join(c["rule_sets"]) or "none"
     if not verdict["findings"]:
@@ -286,7 +339,8 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
             people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right")
         for m in result.members:
             people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
-                           f"{m['min_sao2_pct']:.0f}", str(m["min_sao2_leg"]), m.get("risk_category") or "-")
+                           saturation_text(m["min_sao2_pct"], m.get("time_limited") and "none", unit=""),
+                           str(m["min_sao2_leg"]), m.get("risk_category") or "-")
         out.append(people)
         texts: dict[str, list[str]] = {}
         for m in result.members:
@@ -365,18 +419,19 @@ def leg_renderables(result, *, feet: bool = False) -> list:
     names += (["Night SaO2 %"] if night else []) + ["CaO2 mL/dL", "Flags"]
     for name in names:
         phys.add_column(name, justify="left" if name == "Flags" else "right")
-    for leg in result.legs:
-        row = [str(leg["leg"]), f"{leg['alveolar_pco2_mmhg']:.0f}", f"{leg['alveolar_po2_mmhg']:.0f}",
-               f"{leg['arterial_po2_mmhg']:.0f}", f"{leg['arterial_po2_mmhg'] * KPA_PER_MMHG:.1f}",
-               f"{leg['sao2_pct']:.0f}"]
+    for leg in map(shown_leg, result.legs):
+        pao2 = leg["arterial_po2_mmhg"]
+        row = [str(leg["leg"]), _num(leg["alveolar_pco2_mmhg"]), _num(leg["alveolar_po2_mmhg"]), _num(pao2),
+               _num(None if pao2 is None else pao2 * KPA_PER_MMHG, "{:.1f}"), _num(leg["sao2_pct"], none="none")]
         if night:
-            row.append("-" if leg["night_sao2_pct"] is None else f"{leg['night_sao2_pct']:.0f}")
+            row.append(_num(leg["night_sao2_pct"]))
         flags = _flag_text(result, leg)
-        if not leg.get("model_valid", True):
-            flags = (OUTSIDE_MODEL + " " + flags) if flags != "-" else OUTSIDE_MODEL
-        phys.add_row(*row, f"{leg['o2_content_ml_dl']:.1f}", flags)
+        if validity_mark(leg):
+            flags = (validity_mark(leg) + " " + flags) if flags != "-" else validity_mark(leg)
+        phys.add_row(*row, _num(leg["o2_content_ml_dl"], "{:.1f}"), flags)
     out.append(phys)
-    out.append(Text(FLAG_LEGEND))
+    limited = [f"Leg {leg['leg']}: {leg['time_limited']}." for leg in result.legs if leg.get("time_limited")]
+    out.append(Text(FLAG_LEGEND + ("\n" + "\n".join(limited) if limited else "")))
     return out
 
 
@@ -399,10 +454,13 @@ def people_extras_renderables(result) -> list:
         for name in ("Name", "Worst leg", "Central %", "Range %", "Asleep"):
             table.add_column(name, justify="left" if name == "Name" else "right")
         for person in ranges["people"]:
-            worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
+            worst = min(person["legs"], key=lambda leg: (leg.get("model_valid", True), leg["central_sao2_pct"]))
             pct = worst["sao2_pct_percentiles"]
-            table.add_row(person["name"], str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}",
-                          f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no")
+            if worst.get("model_valid", True):
+                central, spread = f"{worst['central_sao2_pct']:.0f}", f"{pct[0]:.0f}-{pct[-1]:.0f}"
+            else:   # no steady state: no saturation (the time-limited state is in the legs and notes)
+                central, spread = "none " + OUTSIDE_MODEL, "-"
+            table.add_row(person["name"], str(worst["leg"]), central, spread, "yes" if worst["sleeping"] else "no")
         out.append(table)
     if result.extras.get("fitness_to_fly"):
         from .cli_people import fitness_lines
@@ -448,6 +506,20 @@ JSON_SECTIONS = ("plan", "kind", "source", "caution_short", "rule_sets", "verdic
                  "sources", "caution")
 
 
+def _range_without_unsteady(person: dict) -> dict:
+    """One person's expected range with no saturation where there is no steady state."""
+    import numpy as np
+
+    out = {**person, "legs": [leg if leg.get("model_valid", True) else
+                              {**leg, "central_sao2_pct": None, "sao2_pct_percentiles": None,
+                               "lowest_sao2_pct_percentiles": None} for leg in person["legs"]]}
+    if "central_sao2_pct" in person and "model_valid" in person:   # per sample (--timeline)
+        valid = np.asarray(person["model_valid"], dtype=bool)
+        out["central_sao2_pct"] = np.where(valid, person["central_sao2_pct"], np.nan)
+        out["sao2_pct_percentiles"] = np.where(valid, person["sao2_pct_percentiles"], np.nan)
+    return out
+
+
 def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
     """JSON-ready mapping of an evaluated plan (same numbers as the tables), its sections in the
     order of the terminal output (:data:`JSON_SECTIONS`; extras a plan lacks are left out)."""
@@ -458,7 +530,7 @@ def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
 
         rule_sets, _missing = applied_rule_sets(result)
     legs = []
-    for leg in result.legs:
+    for leg in map(shown_leg, result.legs):
         row = {k: v for k, v in leg.items() if k != "flags"}
         row["flags"] = [_flag_text(result, {"flags": [k]}) for k in leg["flags"]]
         legs.append(row)
@@ -476,24 +548,25 @@ def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
                                                                  "sleeping")}
             value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
                                for p in value["people"]]
+        if key == "ranges":   # no saturation where there is no steady state
+            value = {**value, "people": [_range_without_unsteady(p) for p in value["people"]]}
         parts[key] = value
     order = [k for k in JSON_SECTIONS if k in parts] + [k for k in parts if k not in JSON_SECTIONS]
     data = public({k: parts[k] for k in order})
     if timeline:
-        n = len(result.samples["time_h"])
-        data["timeline"] = [{k: v[i] for k, v in result.samples.items()} for i in range(n)]
+        data["timeline"] = _timeline_rows(result)
     return data
 
 
 def plan_csv_rows(result, *, timeline: bool = False) -> list[dict]:
     """One flat row per leg (or per sample with ``timeline``), each with the plan's name."""
     if timeline:
-        n = len(result.samples["time_h"])
-        rows = [{"plan": result.name, **{k: v[i] for k, v in result.samples.items()}} for i in range(n)]
+        rows = [{"plan": result.name, **row} for row in _timeline_rows(result)]
     else:
         rows = []
-        for leg in result.legs:
+        for leg in map(shown_leg, result.legs):
             row = {"plan": result.name, **{k: v for k, v in leg.items() if k != "flags"}}
+            row["validity_notes"] = " ".join(leg.get("validity_notes", []))
             row["flags"] = " ".join(_flag_text(result, {"flags": [k]}) for k in leg["flags"])
             rows.append(row)
     notes = " ".join(getattr(result, "guidance_notes", []))

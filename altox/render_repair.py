@@ -4,7 +4,9 @@ from __future__ import annotations
 
 
 def _worst_text(entry) -> str:
-    return f"{entry['sao2_pct']:.0f} % ({entry['where']})"
+    from .render import saturation_text
+
+    return f"{saturation_text(entry['sao2_pct'], entry.get('time_limited'))} ({entry['where']})"
 
 
 def repair_renderables(original, repair, summary, *, written: str | None = None) -> list:
@@ -46,13 +48,19 @@ def repair_renderables(original, repair, summary, *, written: str | None = None)
         table.add_row("Legs", str(before["legs"]), str(after["legs"]))
     for b, a in zip(before["worst"], after["worst"]):
         table.add_row(f"Lowest SaO2, {b['name']}", _worst_text(b), _worst_text(a))
+    if "goal_worst" in before:
+        pct = f"{repair.goal.percentile:g}th pct"
+        for b, a in zip(before["goal_worst"], after["goal_worst"]):
+            table.add_row(f"Goal ({pct}), {b['name']}", f"{b['sao2_pct']:.0f} % (day {b['day']})",
+                          f"{a['sao2_pct']:.0f} % (day {a['day']})")
     table.add_row("Guidance not met", str(len(before["not_met"])), str(len(after["not_met"])))
     table.add_row("Planned oxygen, L", f"{before['oxygen_litres']:,.0f}", f"{after['oxygen_litres']:,.0f}")
     out.append(table)
     out.append(Text("Lowest SaO2: expected value at rest on air (planned oxygen not applied), worst moment "
                     "of the plan per person."))
     if repair.goal is not None:
-        out.append(Text(f"Goal: {repair.goal.describe()}."))
+        out.append(Text(f"Goal: {repair.goal.describe()}. Goal rows: the lowest such value over the plan, "
+                        "with the planned oxygen applied."))
     if before["not_met"]:
         out.append(Text("Not met before:\n" + "\n".join(f"  - {f['message']}" for f in before["not_met"])))
     if after["not_met"]:

@@ -422,33 +422,34 @@ def _expedition_text(original_text: str, plan, nights) -> tuple[str, dict]:
 
 
 def _sentences(plan, nights, day_map) -> list[str]:
-    """The changes as plain sentences, by the repaired plan's day numbers."""
+    """The changes as plain sentences, one per changed day, by the repaired plan's day numbers."""
     out = []
     kept = {x.source for x in nights if x.source is not None}
     for k, x in enumerate(nights, start=1):
+        parts = []
         if x.kind == "rest":
-            out.append(f"day {k}: stay at {_fmt_m(x.sleep_m)} (added rest day for acclimatization).")
+            parts.append(f"stay at {_fmt_m(x.sleep_m)} (added rest day for acclimatization)")
         elif x.kind == "camp":
             nxt = next((y for y in nights[k:] if y.source is not None), None)
             towards = f" on the way to {_fmt_m(plan.days[nxt.source].sleep_m)}" if nxt else ""
-            out.append(f"day {k}: sleep at {_fmt_m(x.sleep_m)} (added intermediate camp{towards}).")
+            parts.append(f"sleep at {_fmt_m(x.sleep_m)} (added intermediate camp{towards})")
         elif x.kind == "lower":
-            was = f" (was day {x.source + 1})" if k != x.source + 1 else ""
-            out.append(f"day {k}{was}: sleep at {_fmt_m(x.sleep_m)} instead of "
-                       f"{_fmt_m(plan.days[x.source].sleep_m)}, going up to {_fmt_m(x.high_m)} for the day.")
-        elif x.source is not None and k != x.source + 1 and (plan.days[x.source].fixed):
-            out.append(f"day {k}: fixed day kept.")
+            parts.append(f"sleep at {_fmt_m(x.sleep_m)} instead of {_fmt_m(plan.days[x.source].sleep_m)}, "
+                         f"going up to {_fmt_m(x.high_m)} for the day")
         if x.drop_high:
-            out.append(f"day {k}: no longer goes up to {_fmt_m(plan.days[x.source].high_m)}.")
+            parts.append(f"no longer goes up to {_fmt_m(plan.days[x.source].high_m)}")
         if x.oxygen_flow_l_min is not None:
-            what = {"sleep": f"sleep at {_fmt_m(x.sleep_m)}", "all": "spend the day and the night",
-                    "climb": "climb"}[x.oxygen_when]
+            what = {"sleep": "sleep" if parts else f"sleep at {_fmt_m(x.sleep_m)}",
+                    "all": "spend the day and the night", "climb": "climb"}[x.oxygen_when]
             was = ""
             if x.source is not None and plan.days[x.source].oxygen is not None:
                 o = plan.days[x.source].oxygen
                 was = (f" (planned: {_fmt_flow(o.flow_l_min)} when {o.when})" if o.flow_l_min is not None
                        else f" (planned: FiO2 {o.fio2:.0%} when {o.when})")
-            out.append(f"day {k}: {what} on {_fmt_flow(x.oxygen_flow_l_min)} oxygen{was}.")
+            parts.append(f"{what} on {_fmt_flow(x.oxygen_flow_l_min)} oxygen{was}")
+        if parts:
+            was = f" (was day {x.source + 1})" if x.source is not None and k != x.source + 1 else ""
+            out.append(f"day {k}{was}: " + "; ".join(parts) + ".")
     for i in range(len(plan.days)):
         if i not in kept:
             out.append(f"day {i + 1} of the plan (to {_fmt_m(plan.days[i].sleep_m)}) dropped: the day after it "
@@ -456,37 +457,60 @@ def _sentences(plan, nights, day_map) -> list[str]:
     return out
 
 
-# -- goal ---------------------------------------------------------------------------------------
+# -- meeting a goal ------------------------------------------------------------------------------
+def _goal_values(plan, goal: Goal, members: int, seed: int, progress=None):
+    """Each person's SaO2 at the goal's percentile per sample, with planned oxygen applied.
+
+    Returns (people, values, selected, sleeping, day_of, at_high): the members (the reference
+    adult when the plan names none), an array (people, samples), the samples the goal looks at,
+    and per sample whether asleep, the plan day whose oxygen covers it and whether it is at the
+    day's high point.
+    """
+    from .population import expected_range
+    from .timeline import expand
+
+    rng = expected_range(plan, None, n=members, seed=seed, percentiles=(goal.percentile,),
+                         fio2=_planned_fio2(plan), progress=progress)
+    tl = expand(plan)
+    sleeping = np.asarray(rng["sleeping"], dtype=bool)
+    selected = {"night": sleeping, "awake": ~sleeping, "any": np.ones_like(sleeping)}[goal.when]
+    day_of = _day_of_oxygen(plan, tl)
+    alt = np.asarray(tl.altitude_m, dtype=float)
+    high = np.array([plan.days[k].high_m if plan.days[k].high_m is not None else np.nan for k in day_of])
+    people = rng["people"][1:] if len(rng["people"]) > 1 else rng["people"][:1]
+    values = np.array([np.asarray(p["sao2_pct_percentiles"])[0] for p in people])
+    return ([p["name"] for p in people], values, selected, sleeping, day_of,
+            ~sleeping & np.isclose(alt, high))
+
+
 def _goal_misses(plan, goal: Goal, members: int, seed: int, progress=None) -> dict:
     """Where the goal is missed: {(day index, oxygen 'when' that would cover it): (value, member)}.
 
     A sample asleep before 06:00 belongs to the night of the day before (as planned oxygen does);
     an awake miss at the day's high point asks for 'climb' oxygen, any other awake miss for 'all'.
     """
-    from .population import expected_range
-    from .timeline import expand
-
-    fio2 = _planned_fio2(plan)
-    rng = expected_range(plan, None, n=members, seed=seed, percentiles=(goal.percentile,), fio2=fio2,
-                         progress=progress)
-    tl = expand(plan)
-    sleeping = np.asarray(rng["sleeping"], dtype=bool)
-    sel = {"night": sleeping, "awake": ~sleeping, "any": np.ones_like(sleeping)}[goal.when]
-    day_of = _day_of_oxygen(plan, tl)
-    alt = np.asarray(tl.altitude_m, dtype=float)
-    high = np.array([plan.days[k].high_m if plan.days[k].high_m is not None else np.nan for k in day_of])
-    at_high = ~sleeping & np.isclose(alt, high)
-    people = rng["people"][1:] if len(rng["people"]) > 1 else rng["people"][:1]
+    names, values, selected, sleeping, day_of, at_high = _goal_values(plan, goal, members, seed, progress)
     misses: dict = {}
-    for p in people:
-        s = np.asarray(p["sao2_pct_percentiles"])[0]
-        bad = sel & (s < goal.sao2_pct - 1e-9)
-        for k in np.flatnonzero(bad):
+    for name, s in zip(names, values):
+        for k in np.flatnonzero(selected & (s < goal.sao2_pct - 1e-9)):
             when = "sleep" if sleeping[k] else ("climb" if at_high[k] else "all")
             key = (int(day_of[k]), when)
             if key not in misses or s[k] < misses[key][0]:
-                misses[key] = (float(s[k]), p["name"])
+                misses[key] = (float(s[k]), name)
     return misses
+
+
+def goal_worst(plan, goal: Goal, members: int | None = None, seed: int | None = None) -> list[dict]:
+    """Per person, the lowest SaO2 at the goal's percentile over the moments the goal looks at, and its day."""
+    from .population import DEFAULT_MEMBERS, DEFAULT_SEED
+
+    names, values, selected, _sleeping, day_of, _ = _goal_values(
+        plan, goal, DEFAULT_MEMBERS if members is None else members, DEFAULT_SEED if seed is None else seed)
+    out = []
+    for name, s in zip(names, values):
+        k = int(np.argmin(np.where(selected, s, np.inf)))
+        out.append({"name": name, "sao2_pct": float(s[k]), "day": int(day_of[k]) + 1})
+    return out
 
 
 def _planned_fio2(plan):
@@ -671,6 +695,10 @@ def _meet_goal(plan, text, nights, goal, allow_oxygen, members, seed, progress=N
         stuck = []
         for (day_i, need), (value, name) in sorted(misses.items()):
             x = nights[day_i]
+            if x.source is not None and plan.days[x.source].fixed:
+                stuck.append(f"the goal ({goal.describe()}) is missed by {name} on day {day_i + 1}, "
+                             f"{value:.0f} % at the {goal.percentile:g}th percentile, and that day is fixed.")
+                continue
             flow, when = _oxygen_of(plan, x)
             covered = when == need or when == "all"
             higher = [q for q in FLOW_LADDER_L_MIN if q > flow + 1e-9 or (not covered and q >= flow - 1e-9)]
@@ -700,7 +728,7 @@ def _side(plan) -> dict:
     for m in result.members:
         leg = result.legs[m["min_sao2_leg"] - 1]
         worst.append({"name": m["name"], "sao2_pct": m["min_sao2_pct"], "leg": m["min_sao2_leg"],
-                      "where": leg["label"]})
+                      "where": leg["label"], "time_limited": m.get("time_limited")})
     if plan.kind == "expedition":
         length = {"days": len(plan.days)}
     else:
@@ -719,9 +747,17 @@ def not_checked(plan) -> list[dict]:
             for rs in _rule_sets(plan) for ne in rs.not_encoded]
 
 
-def compare(original, repaired) -> dict:
-    """Side-by-side summary of two plans (``before`` and ``after``) and the provisions not checked."""
-    return {"before": _side(original), "after": _side(repaired), "not_checked": not_checked(repaired)}
+def compare(original, repaired, goal: Goal | None = None, *, members: int | None = None,
+            seed: int | None = None) -> dict:
+    """Side-by-side summary of two plans (``before`` and ``after``) and the provisions not checked.
+
+    With a ``goal``, each side also has ``goal_worst`` (:func:`goal_worst`, planned oxygen applied).
+    """
+    out = {"before": _side(original), "after": _side(repaired), "not_checked": not_checked(repaired)}
+    if goal is not None and original.kind == "expedition":
+        out["before"]["goal_worst"] = goal_worst(original, goal, members, seed)
+        out["after"]["goal_worst"] = goal_worst(repaired, goal, members, seed)
+    return out
 
 
 def repair_to_dict(original, repair: Repair, summary: dict) -> dict:

@@ -20,7 +20,7 @@ import tempfile
 from pathlib import Path
 
 from .errors import AltoxError
-from .render import CAUTION, FLAG_BROKEN, FLAG_LEGEND, FLAG_MET, KPA_PER_MMHG, _fmt_h
+from .render import CAUTION, FLAG_BROKEN, FLAG_LEGEND, FLAG_MET, KPA_PER_MMHG, _fmt_h, saturation_text, shown_leg, validity_mark
 
 REPORT_SUFFIXES = (".html", ".htm")
 #: the Content-Security-Policy of every report: inline styles only, nothing fetched, no scripts
@@ -178,6 +178,8 @@ def _flags_html(result, leg) -> str:
         f = result.findings[k]
         met = f.status == "required-planned"
         marks.append(f'<span class="flag {"m" if met else "x"}">{FLAG_MET if met else FLAG_BROKEN}{k + 1}</span>')
+    if validity_mark(leg):
+        marks.insert(0, f'<span class="flag v">{_e(validity_mark(leg))}</span>')
     return " ".join(marks) or "&ndash;"
 
 
@@ -203,10 +205,13 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
     w = v["worst"]
     length = (f"{len(result.legs)} days" if result.kind == "expedition"
               else f"{len(result.legs)} legs, {_fmt_h(s['total_hours'])}")
+    if w.get("time_limited"):   # no steady state: never a saturation
+        worst = f"<strong>{_e(w['time_limited'])}</strong>, reference adult on air."
+    else:
+        worst = (f"expected SaO2 <strong>{w['sao2_pct']:.0f} %</strong> {'asleep' if w['asleep'] else 'awake'}, "
+                 "reference adult at rest on air.")
     parts = ['<section id="summary">', "<h2>Verdict</h2>",
-             f"<p><strong>Worst moment:</strong> {_e(w['label'])} (leg {w['leg']}): expected SaO2 "
-             f"<strong>{w['sao2_pct']:.0f} %</strong> {'asleep' if w['asleep'] else 'awake'}, reference adult at "
-             "rest on air.</p>"]
+             f"<p><strong>Worst moment:</strong> {_e(w['label'])} (leg {w['leg']}): {worst}</p>"]
     if len(v["people"]) > 1:
         expedition = result.kind == "expedition"
         rows = []
@@ -214,7 +219,8 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
             rng = "&ndash;" if p["range_pct"] is None else f"{p['range_pct'][0]:.0f}-{p['range_pct'][1]:.0f}"
             state = "&ndash;" if p["asleep"] is None else ("asleep" if p["asleep"] else "awake")
             last = _e(p["risk_category"] or "-") if expedition else _e(p["role"])
-            rows.append(([_e(p["name"]), str(p["leg"]), _e(p["label"]), f"{p['sao2_pct']:.0f}", rng, state, last], ""))
+            rows.append(([_e(p["name"]), str(p["leg"]), _e(p["label"]),
+                          _e(saturation_text(p["sao2_pct"], p.get("time_limited"), unit="")), rng, state, last], ""))
         parts.append(_table("Worst moment per person (expected SaO2; range: 5th to 95th percentile of simulated "
                             "people like them)", ["Person", "Leg", "When", "SaO2 %", "Range %", "State",
                                                   "Risk" if expedition else "Role"],
@@ -283,7 +289,7 @@ def _people(result) -> str:
     rows = []
     for m in result.members:
         cells = [_e(m["name"]), _e(m["role"]), f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
-                 f"{m['min_sao2_pct']:.0f}", str(m["min_sao2_leg"])]
+                 _e(saturation_text(m["min_sao2_pct"], m.get("time_limited"), unit="")), str(m["min_sao2_leg"])]
         cells += [_e(_fmt_h(m.get(f"hours_below_{lvl}_pct", 0.0))) for lvl in levels]
         if expedition:
             cells.append(_e(m.get("risk_category") or "-"))
@@ -320,11 +326,14 @@ def _people_extras(result) -> list[str]:
         lo_p, hi_p = ranges["percentiles"][0], ranges["percentiles"][-1]
         rows = []
         for person in ranges["people"]:
-            worst = min(person["legs"], key=lambda leg: leg["central_sao2_pct"])
+            worst = min(person["legs"], key=lambda leg: (leg.get("model_valid", True), leg["central_sao2_pct"]))
             pct = worst["sao2_pct_percentiles"]
-            mark = "" if worst.get("model_valid", True) else " (outside the model)"
-            rows.append(([_e(person["name"]), str(worst["leg"]), f"{worst['central_sao2_pct']:.0f}{mark}",
-                          f"{pct[0]:.0f}-{pct[-1]:.0f}", "yes" if worst["sleeping"] else "no"], ""))
+            if worst.get("model_valid", True):
+                central, spread = f"{worst['central_sao2_pct']:.0f}", f"{pct[0]:.0f}-{pct[-1]:.0f}"
+            else:   # no steady state: no saturation
+                central, spread = "none (no steady state)", "-"
+            rows.append(([_e(person["name"]), str(worst["leg"]), central, spread,
+                          "yes" if worst["sleeping"] else "no"], ""))
         parts.append(_table(f"Expected SaO2 at each person's worst leg: central and {lo_p:g}th to {hi_p:g}th "
                             f"percentile of {ranges['n']} simulated people",
                             ["Name", "Leg", "Central %", "Range %", "Asleep"], [False, True, True, True, False],
@@ -380,11 +389,15 @@ def _legs(result, feet: bool) -> str:
     headers += ["Time", "PB mmHg", "PIO2 mmHg", "Dose km·h"]
     numeric = [True, False, True, True, True, True, True, True]
     where, phys = [], []
-    for leg in result.legs:
+    for leg in map(shown_leg, result.legs):
         cls = "broken" if any(result.findings[k].status in BROKEN_STATUSES for k in leg["flags"]) else ""
         label = _e(leg["label"]) + (" <strong>+O2</strong>" if leg["oxygen_planned"] else "")
         where.append(([str(leg["leg"]), label, *_place_cells(leg, expedition, conv), f"{leg['barometric_mmhg']:.0f}",
                        f"{leg['inspired_po2_mmhg']:.0f}", f"{leg['hypoxic_dose_kmh']:.1f}"], cls))
+        if leg.get("time_limited"):   # no steady state: the time-limited state, no saturation
+            phys.append(([str(leg["leg"]), "-", "-", "-", "-", _e(leg["time_limited"]), "-",
+                          _flags_html(result, leg)], cls))
+            continue
         phys.append(([str(leg["leg"]), f"{leg['alveolar_pco2_mmhg']:.0f}", f"{leg['alveolar_po2_mmhg']:.0f}",
                       f"{leg['arterial_po2_mmhg']:.0f}", f"{leg['arterial_po2_mmhg'] * KPA_PER_MMHG:.1f}",
                       f"{leg['sao2_pct']:.0f}", f"{leg['o2_content_ml_dl']:.1f}", _flags_html(result, leg)], cls))

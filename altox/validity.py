@@ -37,7 +37,7 @@ import numpy as np
 __all__ = ["VALIDATED", "EXTRAPOLATED", "NO_STEADY_STATE", "STATUS_NAMES", "ACUTE_ABOVE_DATA",
            "AGE_OUTSIDE_DATA", "TUC_REGIME", "BELOW_FLOOR", "NO_SOLUTION", "limits", "classify",
            "air_equivalent_altitude_ft", "status_name", "validity_notes", "time_limited_text",
-           "tuc_text", "describe"]
+           "tuc_text", "describe", "describe_samples"]
 
 VALIDATED, EXTRAPOLATED, NO_STEADY_STATE = 0, 1, 2
 STATUS_NAMES = ("validated", "extrapolated", "no_steady_state")
@@ -51,7 +51,6 @@ NO_SOLUTION = 16         # no steady state: the ventilation model has no resting
 
 _EXTRAPOLATED_BITS = ACUTE_ABOVE_DATA | AGE_OUTSIDE_DATA
 _NO_STEADY_BITS = TUC_REGIME | BELOW_FLOOR | NO_SOLUTION
-_FT_TOLERANCE = 0.01     # round trip PIO2 -> altitude of exactly 20,000 ft stays at the limit
 
 
 @lru_cache(maxsize=1)
@@ -69,8 +68,7 @@ def limits() -> dict:
         ``acute_validated_max_pb_mmhg`` and ``no_steady_state_max_pb_mmhg`` (ISA pressures of
         the two altitude limits).
     """
-    from .atmosphere import barometric_pressure
-    from .units import M_PER_FT
+    from .atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
     from .ventilation import acclimatization_fractions, model_coefficients
     from .yamlload import load_data_file
 
@@ -83,13 +81,21 @@ def limits() -> dict:
     out["acclimatized_min_fraction"] = float(acclimatization_fractions(out["acclimatized_min_days"])[0])
     out["acute_max_fraction"] = float(acclimatization_fractions(out["acute_max_days"])[0])
     out["acute_validated_max_pb_mmhg"] = float(barometric_pressure(out["acute_validated_max_m"], "isa"))
-    out["no_steady_state_max_pb_mmhg"] = float(barometric_pressure(
-        out["no_steady_state_min_altitude_ft"] * M_PER_FT, "isa"))
+    out["no_steady_state_max_pb_mmhg"] = float(pressure_altitude_ft_to_mmhg(out["no_steady_state_min_altitude_ft"]))
     return out
 
 
+def _air_equivalent_pb(inspired_po2_mmhg, body_temp_c=37.0):
+    """Pressure at which air gives this inspired PO2, clipped to the ISA range. [mmHg]"""
+    from .atmosphere import ISA_MAX_M, ISA_MIN_M, barometric_pressure
+    from .gas_exchange import AIR_FIO2, water_vapour_pressure
+
+    pb = np.asarray(inspired_po2_mmhg, dtype=float) / AIR_FIO2 + water_vapour_pressure(body_temp_c)
+    return np.clip(pb, barometric_pressure(ISA_MAX_M, "isa"), barometric_pressure(ISA_MIN_M, "isa"))
+
+
 def air_equivalent_altitude_ft(inspired_po2_mmhg, body_temp_c=37.0):
-    """ISA pressure altitude at which air gives this inspired PO2. [ft]
+    """Pressure altitude at which air gives this inspired PO2. [ft]
 
     Parameters
     ----------
@@ -101,16 +107,18 @@ def air_equivalent_altitude_ft(inspired_po2_mmhg, body_temp_c=37.0):
     Returns
     -------
     numeric
-        ``h`` with ``PIO2 = 0.2095 (PB_ISA(h) - PH2O)`` (Fenn, Rahn and Otis 1946), clipped to
-        the ISA range of :mod:`altox.atmosphere`.
+        The pressure altitude of aviation (ISA geopotential height,
+        :func:`altox.atmosphere.pressure_altitude_ft`) of ``PB`` with
+        ``PIO2 = 0.2095 (PB - PH2O)`` (Fenn, Rahn and Otis 1946), clipped to the ISA range.
     """
-    from .atmosphere import ISA_MAX_M, ISA_MIN_M, altitude_for_pressure, barometric_pressure
-    from .gas_exchange import AIR_FIO2, water_vapour_pressure
-    from .units import M_PER_FT
+    from .atmosphere import pressure_altitude_ft
 
-    pb = np.asarray(inspired_po2_mmhg, dtype=float) / AIR_FIO2 + water_vapour_pressure(body_temp_c)
-    pb = np.clip(pb, barometric_pressure(ISA_MAX_M, "isa"), barometric_pressure(ISA_MIN_M, "isa"))
-    return np.asarray(altitude_for_pressure(pb, "isa")) / M_PER_FT
+    return pressure_altitude_ft(_air_equivalent_pb(inspired_po2_mmhg, body_temp_c))
+
+
+def _shown_ft(inspired_po2_mmhg, body_temp_c=37.0) -> float:
+    """The air-equivalent pressure altitude as shown to people: to the nearest 100 ft."""
+    return float(np.round(air_equivalent_altitude_ft(inspired_po2_mmhg, body_temp_c), -2))
 
 
 def classify(inspired_po2_mmhg, f_ventilatory, age_y=40.0, solver_converged=True,
@@ -220,9 +228,9 @@ def time_limited_text(inspired_po2_mmhg, body_temp_c=37.0) -> str:
     ``'no steady state: time of useful consciousness 3-5 min'`` at the air-equivalent
     pressure altitude of this inspired PO2 (or ``'no steady state'`` below the TUC table).
     """
-    alt_ft = float(air_equivalent_altitude_ft(inspired_po2_mmhg, body_temp_c))
-    if alt_ft < limits()["no_steady_state_min_altitude_ft"] - _FT_TOLERANCE:
+    if float(_air_equivalent_pb(inspired_po2_mmhg, body_temp_c)) > limits()["no_steady_state_max_pb_mmhg"] * (1 + 1e-9):
         return "no steady state"
+    alt_ft = _shown_ft(inspired_po2_mmhg, body_temp_c)
     return f"no steady state: time of useful consciousness {tuc_text(alt_ft)}"
 
 
@@ -241,33 +249,37 @@ def validity_notes(reasons, *, inspired_po2_mmhg, age_y=40.0, body_temp_c=37.0) 
     Returns
     -------
     list of str
-        One sentence per reason; one sentence saying the state is within the validated range
-        when there is none.
+        One sentence for the absence of a steady state (the most telling reason: the time of
+        useful consciousness, then the floor, then no solution), one per reason for an
+        extrapolation, or one saying the state is within the validated range.
     """
+    from .atmosphere import altitude_for_pressure
+
     lim = limits()
     reasons = int(reasons)
-    alt_ft = float(air_equivalent_altitude_ft(inspired_po2_mmhg, body_temp_c))
-    from .units import M_PER_FT
-
+    alt_ft = _shown_ft(inspired_po2_mmhg, body_temp_c)
+    alt_m = float(altitude_for_pressure(_air_equivalent_pb(inspired_po2_mmhg, body_temp_c), "isa"))
+    not_a_prediction = " The values computed here are not a prediction."
     notes = []
+    # one sentence for the absence of a steady state, the most telling reason first
     if reasons & TUC_REGIME:
         notes.append(f"No steady state: acute exposure at a pressure altitude of {alt_ft:,.0f} ft "
                      f"(breathing air, or its equivalent), at or above "
                      f"{lim['no_steady_state_min_altitude_ft']:,.0f} ft, where the time of useful "
                      f"consciousness is about {tuc_text(alt_ft)} at rest and shorter after a rapid "
                      "decompression (FAA Aeronautical Information Manual 8-1-2; FAA AC 61-107B, "
-                     "Table 1-1). The values computed here are not a prediction.")
-    if reasons & BELOW_FLOOR:
+                     "Table 1-1)." + not_a_prediction)
+    elif reasons & BELOW_FLOOR:
         notes.append(f"No steady state in the model: the inspired PO2 of {float(inspired_po2_mmhg):.1f} mmHg "
                      f"is below {lim['min_inspired_po2_mmhg']:.1f} mmHg, lower than any published "
                      "resting measurement the model is checked against (the highest summit, "
-                     "West et al., J Appl Physiol 1983). The values computed here are not a prediction.")
-    if reasons & NO_SOLUTION:
+                     "West et al., J Appl Physiol 1983)." + not_a_prediction)
+    elif reasons & NO_SOLUTION:
         notes.append("No steady state in the model: the ventilation model has no resting solution "
-                     "here. The values computed here are not a prediction.")
+                     "here." + not_a_prediction)
     if reasons & ACUTE_ABOVE_DATA and not reasons & _NO_STEADY_BITS:
         notes.append(f"Extrapolated: above {lim['acute_validated_max_m']:,.0f} m "
-                     f"(here {alt_ft * M_PER_FT:,.0f} m pressure altitude on air) with less than about "
+                     f"(here {alt_m:,.0f} m pressure altitude on air) with less than about "
                      f"{lim['acclimatized_min_days']:g} days of acclimatization; published resting "
                      "measurements this high are from acclimatized people only.")
     if reasons & AGE_OUTSIDE_DATA:
@@ -297,3 +309,18 @@ def describe(status, reasons, *, inspired_po2_mmhg, age_y=40.0, body_temp_c=37.0
                                              body_temp_c=body_temp_c),
             "time_limited": (time_limited_text(inspired_po2_mmhg, body_temp_c) if code == NO_STEADY_STATE
                              else None)}
+
+
+def describe_samples(status, reasons, inspired_po2_mmhg, *, age_y=40.0, body_temp_c=37.0) -> dict:
+    """:func:`describe` for a set of states (a leg, or one person over a plan): the worst of them.
+
+    The status is the worst status; the notes cover the reasons of every state; the inspired PO2
+    quoted (and the time of useful consciousness) is the lowest among the states of the worst status.
+    """
+    status = np.asarray(status).ravel()
+    worst = int(status.max(initial=VALIDATED))
+    pio2 = np.asarray(inspired_po2_mmhg, dtype=float).ravel()
+    at_worst = pio2[status == worst] if status.size else pio2
+    all_reasons = int(np.bitwise_or.reduce(np.asarray(reasons, dtype=np.int64).ravel(), initial=0))
+    return describe(worst, all_reasons, inspired_po2_mmhg=float(at_worst.min()), age_y=age_y,
+                    body_temp_c=body_temp_c)

@@ -71,29 +71,32 @@ def plan_verdict(result, rule_sets=None) -> dict:
     leg = next((lg for lg in result.legs if lg["leg"] == s["worst_leg"]), None)
     asleep = bool(leg is not None and leg.get("night_sao2_pct") is not None
                   and leg["night_sao2_pct"] < leg["sao2_pct"])
+    # without a steady state there is no saturation: ``time_limited`` says what there is instead
     worst = {"leg": s["worst_leg"], "label": s["worst_leg_label"], "sao2_pct": s["worst_sao2_pct"],
-             "asleep": asleep}
+             "asleep": asleep, "time_limited": s.get("worst_time_limited")}
     ranges = {p["name"]: p for p in (result.extras.get("ranges") or {}).get("people", [])}
     people = []
 
-    def entry(name, role, sao2, leg_no, risk=None):
+    def entry(name, role, sao2, leg_no, risk=None, time_limited=None):
         label = next((lg["label"] for lg in result.legs if lg["leg"] == leg_no), "")
         row = {"name": name, "role": role, "leg": leg_no, "label": label, "sao2_pct": sao2,
-               "range_pct": None, "asleep": None, "risk_category": risk}
+               "range_pct": None, "asleep": None, "risk_category": risk, "time_limited": time_limited}
         r = ranges.get(name)
         if r:
             at = next((lg for lg in r["legs"] if lg["leg"] == leg_no), None)
-            if at is not None:
+            if at is not None and at.get("model_valid", True):
                 pct = at["sao2_pct_percentiles"]
                 row["range_pct"] = [pct[0], pct[-1]]
                 row["asleep"] = bool(at["sleeping"])
         return row
 
-    people.append(entry("reference adult", "model", s["worst_sao2_pct"], s["worst_leg"]))
+    people.append(entry("reference adult", "model", s["worst_sao2_pct"], s["worst_leg"],
+                        time_limited=s.get("worst_time_limited")))
     if people[0]["asleep"] is None:
         people[0]["asleep"] = asleep
     for m in result.members:
-        people.append(entry(m["name"], m["role"], m["min_sao2_pct"], m["min_sao2_leg"], m.get("risk_category")))
+        people.append(entry(m["name"], m["role"], m["min_sao2_pct"], m["min_sao2_leg"], m.get("risk_category"),
+                            m.get("time_limited")))
     findings = []
     for k, f in enumerate(result.findings):
         th = _threshold(rule_sets, f)

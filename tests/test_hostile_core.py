@@ -144,8 +144,8 @@ def test_plan_marks_clamped_legs(clamped_plan):
     data = json.loads(res.stdout)
     bad = [leg for leg in data["legs"] if not leg["model_valid"]]
     assert bad, "a leg breathing air above FL450 must be marked outside the model"
-    for leg in data["legs"]:
-        assert 0.0 <= leg["sao2_pct"] <= 100.0
+    for leg in data["legs"]:   # without a steady state no saturation is given (issue 11)
+        assert (leg["sao2_pct"] is None) if not leg["model_valid"] else 0.0 <= leg["sao2_pct"] <= 100.0
     ranges = data["extras"]["ranges"] if "extras" in data else None
     if ranges:
         assert any(not leg["model_valid"] for p in ranges["people"] for leg in p["legs"])
@@ -186,4 +186,7 @@ observations:
     res = RUN.invoke(app, ["readings", str(path), "--members", "10", "--json"])
     _ok(res)
     data = json.loads(res.stdout)
-    assert [r["expected_sao2_pct"]["model_valid"] for r in data["readings"]] == [True, True]
+    # day 1 is acute exposure from sea level (Cai gives no home altitude) at a pressure altitude above
+    # 20,000 ft: no steady state (time of useful consciousness minutes, FAA AIM 8-1-2); by day 2 the
+    # ventilatory acclimatization is past the first day's and the measured 248 mmHg is above the floor
+    assert [r["expected_sao2_pct"]["model_valid"] for r in data["readings"]] == [False, True]

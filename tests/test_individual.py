@@ -182,3 +182,72 @@ def test_renal_carbonic_anhydrase_inhibition_against_swenson_1991():
     placebo = assess(4400.0, atmosphere="mountain", days=3.0)
     drug = assess(4400.0, atmosphere="mountain", days=3.0, hco3_offset_mmol_l=-(18.9 - 14.8))
     assert drug["sao2_pct"] - placebo["sao2_pct"] == pytest.approx(85.0 - 81.0, abs=1.5)
+
+
+# -- fitness to fly: one verdict by the published path ------------------------------------------------------
+# Screening: Ahmedzai S et al. BTS recommendations, Thorax 2011;66 Suppl 1, Table 1 (read): sea-level SpO2
+# > 95 %: oxygen not required; 92-95 % without risk factor: not required; with one: hypoxic challenge test;
+# < 92 %: in-flight oxygen.  Regression: Dillard 1989 at 8,000 ft against the BTS 2022 challenge threshold
+# (PaO2 6.6 kPa, Coker RK et al. Thorax 2022;77:329, table read).
+@pytest.mark.parametrize("spo2, risk, level", [
+    (0.96, None, "not required"),                     # > 95 %
+    (0.95, [], "not required"),                       # 92-95 %, every risk factor excluded
+    (0.95, None, "not concluded"),                    # 92-95 %, risk factors not stated: unknown
+    (0.92, None, "not concluded"),
+    (0.92, ["hypercapnia"], "hypoxic challenge test"),
+    (0.919, [], "in-flight oxygen"),                  # < 92 %
+], ids=["BTS2011-above-95", "BTS2011-band-no-risk", "BTS2011-band-unknown-95", "BTS2011-band-unknown-92",
+        "BTS2011-band-risk", "BTS2011-below-92"])
+def test_screening_path_bts_2011_table_1(spo2, risk, level):
+    r = ind.fitness_to_fly(spo2_ground=spo2, risk_factors=risk, age_y=60.0)
+    assert r["verdict"]["level"] == level and r["verdict"]["path"] == "ground SpO2 screening"
+    assert "Thorax 2011" in r["verdict"]["sources"][0]
+
+
+def test_ground_spo2_92_with_unknown_risk_factors_never_says_not_required():
+    r = ind.fitness_to_fly(spo2_ground=0.92)
+    assert r["verdict"]["level"] == "not concluded"
+    assert "NOT REQUIRED" not in r["verdict"]["text"]
+    assert "hypercapnia" in r["verdict"]["must_know"] and any("age" in m for m in r["verdict"]["must_know"])
+    # the chain alone would pass this person at 8,000 ft; it is context, never the basis
+    assert r["model"]["role"].startswith("context only")
+    # an FEV1 below 50 % of predicted is a listed risk factor whatever else is stated
+    assert ind.fitness_to_fly(spo2_ground=0.93, fev1_fraction=0.45, risk_factors=[])["verdict"]["level"] \
+        == "hypoxic challenge test"
+
+
+@pytest.mark.parametrize("pao2, fev1, level", [
+    (72.4, 0.31, "in-flight oxygen"),          # Dillard cohort means: 47.2 mmHg = 6.29 kPa < 6.6
+    (80.0, 0.70, "hypoxic challenge test"),    # 65.7 mmHg: above, but a prediction only: test confirms
+], ids=["Dillard1989-cohort-below-6.6kPa", "Dillard1989-above-prediction-only"])
+def test_regression_path_at_its_derivation_altitude(pao2, fev1, level):
+    r = ind.fitness_to_fly(pao2_ground_mmhg=pao2, fev1_fraction=fev1, cabin_altitude_ft=5000.0, age_y=68.0)
+    assert r["verdict"]["level"] == level
+    assert r["regression"]["valid_at_ft"] == 8000.0 and r["cabin_altitude_ft"] == 5000.0
+    assert "8,000 ft" in r["verdict"]["path"]
+
+
+def test_paediatric_path():
+    # Children: the adult table does not apply; hypoxic challenge, in-flight oxygen below SpO2 90 % on
+    # 15 % O2 (BTS 2011 criterion as quoted by Jamieson & Carden, Eur Respir J 2012;40 Suppl 56:4334).
+    r = ind.fitness_to_fly(spo2_ground=0.97, age_y=6.0)
+    assert r["verdict"]["level"] == "hypoxic challenge test" and r["verdict"]["path"] == "paediatric"
+    assert "90 %" in r["verdict"]["reasons"][0]
+
+
+def test_fitness_command_one_verdict_and_cabin_conflict():
+    from typer.testing import CliRunner
+
+    import altox.cli_people  # noqa: F401
+    from altox.cli import app
+
+    res = CliRunner().invoke(app, ["fitness-to-fly", "profiles/medevac-transfer.yaml"])
+    assert res.exit_code == 0, res.output
+    assert res.stdout.count("IN-FLIGHT OXYGEN") == 1 and "Path:" in res.stdout and "Thorax" in res.stdout
+    assert "oxygen not required" not in res.stdout.lower()
+    assert "for 8,000 ft" in res.stdout and "cabin is 5,000 ft" in res.stdout
+    assert max(len(line) for line in res.stdout.splitlines()) <= 80
+    res = CliRunner().invoke(app, ["fitness-to-fly", "profiles/medevac-transfer.yaml", "--cabin", "6000ft"])
+    assert res.exit_code == 2 and "--cabin" in res.output
+    res = CliRunner().invoke(app, ["fitness-to-fly", "--spo2", "92 %"])
+    assert res.exit_code == 0 and "NOT CONCLUDED" in res.stdout and "not required" not in res.stdout.lower()

@@ -251,6 +251,9 @@ def test_goal_met_with_oxygen_and_checked_by_the_range(tmp_path):
     assert _broken(result.plan) == []
     assert any("oxygen" in c for c in result.changes)
     assert any(d.oxygen is not None for d in result.plan.days)
+    summary = rp.compare(load_plan(path), result.plan, rp.parse_goal(goal), members=50, seed=1)
+    assert all(w["sao2_pct"] >= 80.0 for w in summary["after"]["goal_worst"])
+    assert any(w["sao2_pct"] < 80.0 for w in summary["before"]["goal_worst"])
 
 
 @pytest.mark.parametrize("goal, options, needle", [

@@ -21,7 +21,7 @@ import pytest
 from typer.testing import CliRunner
 
 from altox import assess
-from altox.atmosphere import barometric_pressure
+from altox.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
 from altox.cli import app
 from altox.gas_exchange import inspired_po2
 from altox.units import M_PER_FT
@@ -31,7 +31,8 @@ from altox.validity import (ACUTE_ABOVE_DATA, AGE_OUTSIDE_DATA, BELOW_FLOOR, EXT
 
 
 def _pio2_ft(ft):
-    return float(inspired_po2(barometric_pressure(ft * M_PER_FT)))
+    """Inspired PO2 of air at a pressure altitude (ISA geopotential feet, as in aviation)."""
+    return float(inspired_po2(pressure_altitude_ft_to_mmhg(ft)))
 
 
 def _point(*args):
