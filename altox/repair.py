@@ -547,13 +547,12 @@ def _planned_fio2(plan):
 
 def _day_of_oxygen(plan, tl):
     """Index of the plan day whose oxygen applies to each sample (the night after 00:00 is the day before)."""
-    from .timeline import ARRIVAL_H, NIGHT_END_H
+    from .timeline import NIGHT_END_H
 
     t = np.asarray(tl.time_h, dtype=float)
     day = np.floor(t / 24.0 + 1e-9).astype(int)
     clock = t - 24.0 * day
     day = np.where(clock < NIGHT_END_H - 1e-9, day - 1, day)
-    _ = ARRIVAL_H
     return np.clip(day, 0, len(plan.days) - 1)
 
 

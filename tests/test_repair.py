@@ -6,11 +6,9 @@ hard-coded minutes or counts from a particular reading of a rule.
 
 import hashlib
 import itertools
-import math
 import shutil
 from pathlib import Path
 
-import numpy as np
 import pytest
 from typer.testing import CliRunner
 
@@ -375,3 +373,27 @@ def test_json_output_has_the_summary_and_the_caution():
     assert data["summary"]["after"]["days"] == data["summary"]["before"]["days"] + data["added_days"]
     assert "GUIDANCE ONLY" in data["caution"]
     assert load_plan_text(data["plan_yaml"]).kind == "expedition"
+
+
+def test_search_bound_says_it_stopped():
+    result = rp.repair_plan(ROOT / "profiles" / "trek-teskavor-fast.yaml", max_states=3)
+    assert not result.found and not result.complete
+    assert any("stopped after 3 states" in r for r in result.reasons)
+
+
+def test_keep_decides_whether_a_day_with_a_high_point_may_go(tmp_path):
+    # the fixed fly-out needs one day made up on the way down; day 7 holds a reading (never dropped),
+    # day 6 has a high point of its own (not the plan's highest)
+    sleeps = [2800, 3300, 3700, 4100, 4500, 3600, 2800, 1200]
+    extra = ("party:\n  - {name: Ada, age: 40}\n"
+             "observations:\n  - {day: 7, member: Ada, spo2: 95 %}")
+    path = _plan_file(tmp_path, sleeps, extra=extra,
+                      day_extra={6: ', high: "3,900 m"', 8: ", fixed: true, activity: drive"})
+    assert not rp.repair_plan(path).found
+    result = rp.repair_plan(path, keep="highest")
+    assert result.found, result.reasons
+    assert _broken(result.plan) == [] and len(result.plan.days) == 8
+    day = result.plan.observations[0].day          # the reading stays with its day (at 2,800 m)
+    assert result.plan.days[day - 1].sleep_m == 2800.0
+    assert all(d.high_m is None for d in result.plan.days)
+    assert any("dropped" in c for c in result.changes)
