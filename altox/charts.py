@@ -30,6 +30,8 @@ import io
 import re
 from pathlib import Path
 
+from .render import FLAG_BROKEN
+
 #: default figure size [in] and resolution [dots per inch] of ``altox plan --chart``
 CHART_SIZE_IN = (10.0, 7.0)
 CHART_DPI = 150
@@ -420,7 +422,7 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
                     ax.axvspan(sp["x0"], sp["x1"], facecolor="none", edgecolor=_BROKEN, hatch="///", lw=0,
                                zorder=0.5, alpha=0.65).set_gid(f"altox-broken-leg-{sp['leg']}-{panel}")
             if sp["broken"]:
-                ax_alt.text((sp["x0"] + sp["x1"]) / 2, 0.975, " ".join(f"X{k + 1}" for k in sp["broken"]),
+                ax_alt.text((sp["x0"] + sp["x1"]) / 2, 0.975, ", ".join(f"{FLAG_BROKEN}{k + 1}" for k in sp["broken"]),
                             transform=blended_transform_factory(ax_alt.transData, ax_alt.transAxes),
                             ha="center", va="top", fontsize=_LABEL_PT, fontweight="bold", color=_BROKEN,
                             zorder=8)

@@ -191,6 +191,10 @@ def _load_and_evaluate(path: str, rules: list[str], members: Optional[int] = Non
     from .profile import load_plan
 
     plan = load_plan(path)
+    if members:
+        from .population import check_ensemble_size
+
+        check_ensemble_size(plan, members)
     if rules:
         plan = plan.model_copy(update={"rules": [r for r in rules if not _is_file(r)] or list(plan.rules)})
         files = [r for r in rules if _is_file(r)]
@@ -216,10 +220,12 @@ def _is_file(text: str) -> bool:
 @app.command()
 def plan(
     files: list[str] = typer.Argument(..., help="Plan files (YAML)."),
-    json_out: bool = typer.Option(False, "--json", help="Print JSON instead of tables."),
-    csv_out: bool = typer.Option(False, "--csv", help="Print CSV, one row per leg."),
+    json_out: bool = typer.Option(False, "--json", help="Print JSON instead of tables: one object per plan, "
+                                                      "one line each (JSON Lines), for one file or many."),
+    csv_out: bool = typer.Option(False, "--csv", help="Print CSV, one row per leg (not with --json)."),
     timeline: bool = typer.Option(False, "--timeline", help="With --json or --csv: include every time sample."),
-    feet: bool = typer.Option(False, "--feet", help="Show expedition altitudes in feet (tables, chart, report)."),
+    feet: bool = typer.Option(False, "--feet", help="Show every altitude in feet (tables, chart, report); "
+                                                    "flights are in feet already."),
     rules: list[str] = typer.Option([], "--rules", help="Rule-set id or your own rule file; repeat for "
                                                         "several. Replaces the plan's own list."),
     chart: Optional[str] = typer.Option(None, "--chart", help="Also draw the plan's chart to this file "
@@ -236,6 +242,10 @@ def plan(
     """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
     from . import render
 
+    if json_out and csv_out:
+        _fail("--json and --csv exclude each other; give one of them.")
+    if timeline and not (json_out or csv_out):
+        _fail("--timeline adds every time sample to --json or --csv output; give one of them with it.")
     outputs = [(opt, path) for opt, path in (("--chart", chart), ("--report", report)) if path]
     if outputs:
         def check_outputs():
@@ -265,8 +275,9 @@ def plan(
                 raise
             failed.append(path)
     if json_out:
-        data = [render.plan_to_dict(r, timeline=timeline) for r in results]
-        typer.echo(render.to_json(data[0] if len(files) == 1 and data else data))
+        # one documented shape for one file or many: one JSON object per plan, one line each
+        for r in results:
+            typer.echo(render.to_json(render.plan_to_dict(r, timeline=timeline), indent=None))
     elif csv_out:
         rows = [row for r in results for row in render.plan_csv_rows(r, timeline=timeline)]
         typer.echo(render.to_csv(rows), nl=False)

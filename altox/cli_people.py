@@ -58,6 +58,9 @@ def _plan_and_ranges(file, members, seed):
     _check_members(members)
     check_seed(seed)
     plan = load_plan(file)
+    from .population import check_ensemble_size
+
+    check_ensemble_size(plan, members)
     result = evaluate_plan(plan)
     return plan, result, _ranges(plan, result, members, seed)
 

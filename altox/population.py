@@ -29,11 +29,14 @@ from .errors import OutOfRangeError
 from .individual import _get, _home_shunt, _norm_cdf, _norm_ppf, _value, coefficients, hvr_gain_scale
 
 __all__ = ["expected_range", "point_range", "draw_factors", "DEFAULT_SEED", "DEFAULT_PERCENTILES",
-           "DEFAULT_MEMBERS", "MAX_CHUNK_ELEMENTS"]
+           "DEFAULT_MEMBERS", "MAX_CHUNK_ELEMENTS", "MAX_ENSEMBLE_SOLVES", "check_ensemble_size"]
 
 from .defaults import ENSEMBLE_MEMBERS as DEFAULT_MEMBERS, ENSEMBLE_SEED as DEFAULT_SEED  # noqa: E402
 DEFAULT_PERCENTILES = (5.0, 50.0, 95.0)
 MAX_CHUNK_ELEMENTS = 400_000   # people x members x samples evaluated at once
+#: people (with the reference adult) x members x knots solved for one expected range: the knot results
+#: alone take 8 bytes each (160 MB at the limit), and the solve about 40 s on a 2-core machine
+MAX_ENSEMBLE_SOLVES = 20_000_000
 _HB_LIMITS_G_DL = (7.0, 22.0)
 _TERTILES = {"low": 0, "normal": 1, "high": 2}
 
@@ -47,6 +50,46 @@ def _check_args(n, percentiles):
         raise OutOfRangeError(f"percentiles {percentiles!r} must be numbers from 0 to 100.",
                               field="percentiles", value=percentiles, expected="e.g. (5, 50, 95)")
     return p
+
+
+def _knots_of(tl, gas=None):
+    """The knots of a timeline for the expected range: every change of pressure, drive (sleep) or
+    inspired gas, at most DEFAULT_KNOT_SPACING_H apart."""
+    from .sampling import DEFAULT_KNOT_SPACING_H, Knots
+
+    drive = np.where(tl.sleeping, _value("sleep", "drive_scale"), 1.0)
+    pieces = (np.asarray(tl.pb_mmhg, dtype=float), drive) + (() if gas is None else (gas,))
+    return Knots(tl.time_h, pieces, DEFAULT_KNOT_SPACING_H)
+
+
+def check_ensemble_size(plan, n, *, field: str = "--members", timeline=None, people=None, gas=None) -> None:
+    """Refuse, before any solving, an expected range larger than :data:`MAX_ENSEMBLE_SOLVES`.
+
+    The work is people (with the reference adult) x ``n`` members x the timeline's knots; the
+    message names the largest ``n`` that fits.
+    """
+    from .timeline import expand
+
+    if not n:
+        return
+    tl = expand(plan) if timeline is None else timeline
+    if people is None:
+        people = 1 + len(plan.party if plan.kind == "expedition" else plan.aboard)
+    knots = len(_knots_of(tl, gas))
+    solves = people * int(n) * knots
+    if solves > MAX_ENSEMBLE_SOLVES:
+        fits = MAX_ENSEMBLE_SOLVES // (people * knots)
+        if fits < 10:
+            raise OutOfRangeError(
+                f"{field}: {people} people over {knots:,} time points is too large for an expected range "
+                f"(even 10 simulated people each is over the limit of {MAX_ENSEMBLE_SOLVES:,} model solves); "
+                "expected a shorter plan or fewer people" + (", or --members 0." if field == "--members" else "."),
+                field=field, value=n, expected="a smaller plan")
+        raise OutOfRangeError(
+            f"{field}: {n:,} simulated people for each of {people} people over {knots:,} time points is "
+            f"{solves:,} model solves, over the limit of {MAX_ENSEMBLE_SOLVES:,}; expected {field} "
+            f"{fits:,} or fewer for this plan" + (" (0 skips the range)." if field == "--members" else "."),
+            field=field, value=n, expected=f"at most {fits:,}")
 
 
 def _deviates(n, seed):
@@ -210,7 +253,6 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     from .acclimatization import acclimatization_history
     from .chain import assess
     from .gas_exchange import inspired_po2
-    from .sampling import DEFAULT_KNOT_SPACING_H, Knots
     from .timeline import expand
 
     p = _check_args(n, percentiles)
@@ -225,6 +267,7 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     from .gas_exchange import AIR_FIO2
 
     gas = np.full(n_samples, AIR_FIO2) if fio2 is None else np.broadcast_to(np.asarray(fio2, dtype=float), (n_samples,))
+    check_ensemble_size(plan, n, field="n", timeline=tl, people=n_people, gas=gas)
     if plan.kind == "expedition":
         home = np.array([min(max(float(_get(x, "home_altitude_m", default=0.0) or 0.0), -500.0), 9000.0)
                          if x is not None else 0.0 for x in people])
@@ -245,7 +288,7 @@ def expected_range(plan, result=None, *, n=DEFAULT_MEMBERS, seed=DEFAULT_SEED,
     centrals = [d[0] for d in drawn]
     # the full solve at the knots of the timeline (segment ends, at most DEFAULT_KNOT_SPACING_H apart),
     # then every sample by interpolation in time (altox.sampling), chunked to bound memory
-    knots = Knots(tl.time_h, (pb, drive, gas), DEFAULT_KNOT_SPACING_H)
+    knots = _knots_of(tl, gas)
     k_index = knots.index
     n_knots = k_index.size
     cres = assess(np.broadcast_to(alt[k_index], (n_people, n_knots)),

@@ -63,6 +63,12 @@ MAX_SAMPLE_EVERY_H = 24.0
 MAX_SAMPLES = 500_000
 MAX_DIFFERENTIAL_PSI = 12.0        # above any pressurized aircraft's
 MAX_DAYS = 1000
+MAX_LEGS = 10000
+#: people in a plan's party or aboard (each is evaluated along the whole timeline)
+MAX_PEOPLE = 100
+#: people (with the reference adult) x timeline samples evaluated for one plan: about 1.3 GB and
+#: 20 s at the limit on a 2-core machine (docs/profiles.md, "Limits")
+MAX_PERSON_SAMPLES = 5_000_000
 PRESSURE_MIN_MMHG = 200.0          # measured site pressures: below the highest summit's ~250
 PRESSURE_MAX_MMHG = 820.0
 PRESSURE_MISMATCH_M = 1500.0       # measured pressure vs. sleeping altitude, mountain model
@@ -721,6 +727,17 @@ class _PlanBase(_Model):
                            f"{_fmt_h(self.sample_every_h)} gives {n:,.0f} samples, over the "
                            f"limit of {MAX_SAMPLES:,}; expected a coarser 'sample_every'.",
                            loc=("sample_every",), expected="a coarser sample_every")
+        people = self.party if self.kind == "expedition" else self.aboard
+        key = "party" if self.kind == "expedition" else "aboard"
+        # samples are also cut at every change of state: a few per day or leg beyond the grid
+        stages = len(self.days) if self.kind == "expedition" else len(self.legs)
+        total = (1 + len(people)) * (math.ceil(n) + 6 * stages)
+        if total > MAX_PERSON_SAMPLES:
+            loc = ("sample_every",) if "sample_every_h" in self.model_fields_set else (key,)
+            raise _Problem(f"{1 + len(people)} people (with the reference adult) over about "
+                           f"{math.ceil(n) + 6 * stages:,} samples make {total:,} person-samples, over the limit "
+                           f"of {MAX_PERSON_SAMPLES:,}; expected a coarser 'sample_every', fewer people or a "
+                           "shorter plan.", loc=loc, value=None, expected=f"at most {MAX_PERSON_SAMPLES:,} person-samples")
 
 
 #: Cyrillic and Greek letters drawn like Latin ones (the common look-alikes; a name mixing them would
@@ -763,7 +780,7 @@ class ExpeditionPlan(_PlanBase):
         "mountain", description="Atmosphere model: mountain (West 1996) or isa.")
     start_altitude_m: ExpAltitude = Field(
         alias="start_altitude", description="Where the party slept the night before day 1. [m]")
-    party: list[Member] = Field(default_factory=list, description="The people.")
+    party: list[Member] = Field(default_factory=list, max_length=MAX_PEOPLE, description="The people.")
     days: list[Day] = Field(min_length=1, max_length=MAX_DAYS, description="The days, in order.")
     observations: list[Observation] = Field(
         default_factory=list, description="Readings taken on the way: SpO2, heart rate, Lake Louise score.")
@@ -951,7 +968,8 @@ class FlightPlan(_PlanBase):
         alias="departure_elevation", description="Departure field elevation. [m]")
     arrival_elevation_m: OptFlightAltitude = Field(
         None, alias="arrival_elevation", description="Arrival field elevation. [m]")
-    aboard: list[Occupant] = Field(default_factory=list, description="The people aboard.")
+    aboard: list[Occupant] = Field(default_factory=list, max_length=MAX_PEOPLE,
+                                   description="The people aboard.")
     emergency_descent_rate_ft_min: Annotated[
         Optional[float], BeforeValidator(_opt(_wrap_unit(parse_vertical_speed))),
         WithJsonSchema(_qschema("Emergency descent rate.", ["4,000 ft/min"], nullable=True))] = Field(
@@ -968,7 +986,7 @@ class FlightPlan(_PlanBase):
         None, alias="oxygen_carried", description="Supplemental oxygen available to each occupant for a "
         "descent after a pressurization failure, as time of use; default: not stated (supply rules are "
         "then reported as not met). [h]")
-    legs: list[Leg] = Field(min_length=1, max_length=10000, description="The legs, in order.")
+    legs: list[Leg] = Field(min_length=1, max_length=MAX_LEGS, description="The legs, in order.")
 
     @model_validator(mode="after")
     def _check(self):

@@ -47,8 +47,9 @@ def _clean(value):
     return value
 
 
-def to_json(obj) -> str:
-    """JSON text of a mapping or list of mappings of scalars (numpy types allowed)."""
+def to_json(obj, indent: int | None = 2) -> str:
+    """JSON text of a mapping or list of mappings of scalars (numpy types allowed); ``indent=None``
+    gives one line (JSON Lines)."""
     def walk(o):
         if isinstance(o, dict):
             return {k: walk(v) for k, v in o.items()}
@@ -57,7 +58,7 @@ def to_json(obj) -> str:
         if hasattr(o, "tolist") and getattr(o, "ndim", 0) > 0:
             return [walk(v) for v in o.tolist()]
         return _clean(o)
-    return json.dumps(walk(obj), indent=2, ensure_ascii=False)
+    return json.dumps(walk(obj), indent=indent, ensure_ascii=False)
 
 
 #: keys of altox's data that are notes for maintainers (how a figure was checked), never user output
@@ -175,14 +176,15 @@ def point_table(result: dict, assumptions: list[str], validity: dict | None = No
 
 
 # -- plans ------------------------------------------------------------------------------------
-FLAG_BROKEN = "X"   # the plan does not meet this guidance
-FLAG_MET = "+"      # guidance asks for oxygen here and the plan provides it
-OUTSIDE_MODEL = "?"  # the leg leaves the model's validity: no steady state (see the notes)
-EXTRAPOLATED_MARK = "~"  # a steady state beyond the published data (see the notes)
-FLAG_LEGEND = (f"Flags: {FLAG_BROKEN}n = guidance n (listed below) not met by the plan; "
-               f"{FLAG_MET}n = guidance n asks for oxygen here and the plan provides it; "
-               f"{OUTSIDE_MODEL} = outside the model, no steady state (no saturation shown; see notes); "
-               f"{EXTRAPOLATED_MARK} = extrapolated beyond the published data (see notes).")
+# flags are short words (defined in altox.legend), followed by the finding's number
+FLAG_BROKEN = "breaks "   # the plan does not meet finding n
+FLAG_MET = "met "         # finding n asks for oxygen here and the plan provides it
+OUTSIDE_MODEL = "outside"  # the leg leaves the model's validity: no steady state (see the notes)
+EXTRAPOLATED_MARK = "extrapolated"  # a steady state beyond the published data (see the notes)
+FLAG_LEGEND = ("Flags: 'breaks n' = the plan does not meet finding n of the verdict; 'met n' = finding n "
+               "asks for oxygen here and the plan provides it; 'outside' = outside the model, no steady "
+               "state (no saturation shown); 'extrapolated' = beyond the published data (see the "
+               "assumptions).")
 
 
 def validity_mark(leg: dict) -> str:
@@ -226,12 +228,12 @@ def _num(value, fmt: str = "{:.0f}", none: str = "-") -> str:
     return none if value is None else fmt.format(value)
 
 
-def _flag_text(result, leg):
+def _flag_text(result, leg, sep=", "):
     marks = []
     for k in leg["flags"]:
         f = result.findings[k]
         marks.append(f"{FLAG_MET if f.status == 'required-planned' else FLAG_BROKEN}{k + 1}")
-    return " ".join(marks) or "-"
+    return sep.join(marks) or "-"
 
 
 def _fmt_h(hours: float) -> str:
@@ -240,6 +242,13 @@ def _fmt_h(hours: float) -> str:
     if hours >= 1:
         return f"{hours:.1f} h"
     return f"{hours * 60:.0f} min"
+
+
+def _fold(table):
+    """Wrap long cells onto more lines; never cut a value or a name short with an ellipsis."""
+    for column in table.columns:
+        column.overflow = "fold"
+    return table
 
 
 def _compact_table(title=None, caption=None):
@@ -281,7 +290,7 @@ def verdict_renderables(result, verdict: dict) -> list:
             last = (p["risk_category"] or "-") if expedition else p["role"]
             table.add_row(p["name"], str(p["leg"]), saturation_text(p["sao2_pct"], p.get("time_limited") and "none",
                                                                      unit=""), rng, state, last)
-        out.append(table)
+        out.append(_fold(table))
         limited: dict[tuple, list[str]] = {}
         for p in people:
             if p.get("time_limited"):
@@ -296,8 +305,7 @@ def verdict_renderables(result, verdict: dict) -> list:
     out.append(Text(f"Findings ({rules}): {c['not_met']} not met, {c['met_with_oxygen']} met with the "
                     "planned oxygen.", style="bold"))
     for f in verdict["findings"]:
-        mark = FLAG_BROKEN if f["status"] == "not met" else FLAG_MET
-        out.append(Text(f"{mark}{f['number']} {f['status'].capitalize()} ({f['section']}): {f['message']} "
+        out.append(Text(f"{f['number']}. {f['status'].capitalize()} ({f['section']}): {f['message']} "
                         f"To do: {f['what_to_do']}"))
     return out
 
@@ -336,7 +344,7 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
     if result.members:
         people = Table(title="People", title_justify="left", pad_edge=False)
         for name in ("Name", "Role", "Age", "Hb g/dL", "Lowest SaO2 %", "Leg", "Risk (guidance)"):
-            people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right")
+            people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right", overflow="fold")
         for m in result.members:
             people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
                            saturation_text(m["min_sao2_pct"], m.get("time_limited") and "none", unit=""),
@@ -353,6 +361,9 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
     # -- per-leg tables -------------------------------------------------------------------------
     out.extend(leg_renderables(result, feet=feet))
     out.extend(oxygen_extras_renderables(result))
+    from .legend import legend_lines
+
+    out.append(Text("Terms\n" + "\n".join(f"- {line}" for line in legend_lines(result.kind))))
     out.append(Text("Assumptions\n" + "\n".join(f"- {n}" for n in result.notes)))
     out.append(Text("Sources\n" + "\n".join(f"- {line}" for line in sources_lines(result, rule_sets))))
     out.append(caution_panel())
@@ -410,7 +421,7 @@ def leg_renderables(result, *, feet: bool = False) -> list:
             when = _fmt_h(leg["duration_h"])
         where.add_row(str(leg["leg"]), what, a, b, when, f"{leg['barometric_mmhg']:.0f}",
                       f"{leg['inspired_po2_mmhg']:.0f}", f"{leg['hypoxic_dose_kmh']:.1f}")
-    out.append(where)
+    out.append(_fold(where))
 
     phys = Table(title="Expected physiology at rest, on air (reference adult, worst awake moment of each leg)",
                  title_justify="left", pad_edge=False)
@@ -418,16 +429,16 @@ def leg_renderables(result, *, feet: bool = False) -> list:
     names = ["Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %"]
     names += (["Night SaO2 %"] if night else []) + ["CaO2 mL/dL", "Flags"]
     for name in names:
-        phys.add_column(name, justify="left" if name == "Flags" else "right")
+        phys.add_column(name, justify="left" if name == "Flags" else "right", overflow="fold")
     for leg in map(shown_leg, result.legs):
         pao2 = leg["arterial_po2_mmhg"]
         row = [str(leg["leg"]), _num(leg["alveolar_pco2_mmhg"]), _num(leg["alveolar_po2_mmhg"]), _num(pao2),
                _num(None if pao2 is None else pao2 * KPA_PER_MMHG, "{:.1f}"), _num(leg["sao2_pct"], none="none")]
         if night:
             row.append(_num(leg["night_sao2_pct"]))
-        flags = _flag_text(result, leg)
+        flags = _flag_text(result, leg, sep="\n")   # one flag a line: a flag is never split
         if validity_mark(leg):
-            flags = (validity_mark(leg) + " " + flags) if flags != "-" else validity_mark(leg)
+            flags = (validity_mark(leg) + "\n" + flags) if flags != "-" else validity_mark(leg)
         phys.add_row(*row, _num(leg["o2_content_ml_dl"], "{:.1f}"), flags)
     out.append(phys)
     limited = [f"Leg {leg['leg']}: {leg['time_limited']}." for leg in result.legs if leg.get("time_limited")]
@@ -452,14 +463,14 @@ def people_extras_renderables(result) -> list:
         table = Table(title=f"Expected SaO2 by person: central and {lo_p:g}th-{hi_p:g}th percentile "
                             f"({ranges['n']} simulated people each)", title_justify="left", pad_edge=False)
         for name in ("Name", "Worst leg", "Central %", "Range %", "Asleep"):
-            table.add_column(name, justify="left" if name == "Name" else "right")
+            table.add_column(name, justify="left" if name == "Name" else "right", overflow="fold")
         for person in ranges["people"]:
             worst = min(person["legs"], key=lambda leg: (leg.get("model_valid", True), leg["central_sao2_pct"]))
             pct = worst["sao2_pct_percentiles"]
             if worst.get("model_valid", True):
                 central, spread = f"{worst['central_sao2_pct']:.0f}", f"{pct[0]:.0f}-{pct[-1]:.0f}"
             else:   # no steady state: no saturation (the time-limited state is in the legs and notes)
-                central, spread = "none " + OUTSIDE_MODEL, "-"
+                central, spread = "none", "-"
             table.add_row(person["name"], str(worst["leg"]), central, spread, "yes" if worst["sleeping"] else "no")
         out.append(table)
     if result.extras.get("fitness_to_fly"):

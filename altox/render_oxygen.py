@@ -56,7 +56,8 @@ def oxygen_review_renderables(review: dict, *, with_caution: bool = True) -> lis
         t = _table("Oxygen planned", [("Leg", True), ("When", False), ("Cabin ft" if flight else "At m", True),
                                        ("Device", False), ("L/min", True), ("FiO2", True), ("Eq. m", True),
                                        ("SaO2 %", True), ("L each", True)],
-                   caption="L/min at reference conditions (1 atm, 15 degC); Eq. m = equivalent altitude.")
+                   caption="L/min at reference conditions (1 atm, 15 degC); Eq. m = equivalent altitude; "
+                           "(!) = see the note below the table.")
         for r in review["planned"]:
             where = _num(r["cabin_ft"]) if flight else _num(r["altitude_m"])
             t.add_row(str(r["leg"]), r["when"], where, r["device"] + ("" if r["device_ok"] else " (!)"),
@@ -260,8 +261,11 @@ def decompression_renderables(res: dict) -> list:
         rows.append((f"O2 per {g[:-1] if g.endswith('s') else g} member" if g == "crew" else "O2 per passenger",
                      f"{d['oxygen_l']:.1f} L to {d['to_ft']:,.0f} ft ({d['device']})"
                      + ("" if d["target_held"] else " (!)")))
+    held = all(res[g]["target_held"] for g in ("crew", "passengers"))
     return [_kv("Decompression", rows),
-            _text(["Notes", f"- TUC: {res['tuc_interpolation']}. {res['tuc_caution']}",
+            _text(["Notes", f"- TUC: {res['tuc_interpolation']}. {res['tuc_caution']}"]
+                  + ([] if held else ["- (!) The assumed device cannot hold the target at the top of the "
+                                      "descent: pressure breathing or a faster descent is needed."]) + [
                    f"- Oxygen-free altitudes: crew {res['oxygen_free_ft']['crew']:,.0f} ft "
                    f"({res['oxygen_free_ft']['crew_from']}), passengers "
                    f"{res['oxygen_free_ft']['passengers']:,.0f} ft ({res['oxygen_free_ft']['passengers_from']}).",

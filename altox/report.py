@@ -617,6 +617,14 @@ def _threshold_item(th) -> str:
     return f'<li>{head}<span class="source">{_e(th.section)}.</span></li>'
 
 
+def _terms(result) -> str:
+    """The legend of terms, the same as the terminal's and docs/glossary.md (altox.legend)."""
+    from .legend import terms_for
+
+    body = "\n".join(f"<dt>{_e(t)}</dt><dd>{_e(d)}</dd>" for t, d in terms_for(result.kind))
+    return f'<section id="terms">\n<h2>Terms</h2>\n<dl class="summary">\n{body}\n</dl>\n</section>'
+
+
 def _assumptions(result, with_reviews: bool = True) -> str:
     extra = [] if with_reviews else ["The oxygen and decompression reviews need the plan itself, which was not "
                                      "given with this result; they are not in this report."]
@@ -687,6 +695,7 @@ def build_report(result, *, plan=None, feet: bool = False, rule_sets=None, rule_
         _oxygen(result, rule_sets, ox_review),
         _decompression(result, rule_sets, dec_review),
         _guidance(result, rule_sets, missing),
+        _terms(result),
         _assumptions(result, plan is not None),
         "</main>",
         "<footer>",

@@ -61,8 +61,28 @@ def test_plan_several_files_reports_failures(tmp_path):
     assert proc.returncode == 2
     assert "bad.yaml" in proc.stderr and "1 of 2" in proc.stderr
     assert "Traceback" not in proc.stderr
-    assert json.loads(proc.stdout)[0]["plan"]
+    assert json.loads(proc.stdout)["plan"]            # the plan that worked: one object, one line
     assert bad.read_bytes() == before
+
+
+def test_plan_json_is_one_object_per_plan_per_line():
+    """One documented shape for one file or many: JSON Lines, one object per plan."""
+    demo = str(ROOT / "profiles" / "piston-ridge-crossing.yaml")
+    one = run("plan", demo, "--json", "--members", "0").stdout.splitlines()
+    two = run("plan", demo, demo, "--json", "--members", "0").stdout.splitlines()
+    assert len(one) == 1 and len(two) == 2
+    assert json.loads(one[0]) == json.loads(two[0]) == json.loads(two[1])
+
+
+@pytest.mark.parametrize("args, needle", [
+    (["--json", "--csv"], "--json and --csv exclude each other"),
+    (["--timeline"], "--timeline adds every time sample to --json or --csv"),
+])
+def test_conflicting_options_are_usage_errors(args, needle):
+    proc = run("plan", str(ROOT / "profiles" / "piston-ridge-crossing.yaml"), *args)
+    assert proc.returncode == 2 and proc.stdout == ""
+    lines = proc.stderr.strip().splitlines()
+    assert len(lines) == 1 and needle in lines[0] and lines[0].startswith("Error:")
 
 
 def test_check_and_schema():

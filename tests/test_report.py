@@ -145,7 +145,7 @@ def test_report_content_and_order(reports, demo):
         assert f'id="rules-{rid}"' in text
     for k, f in enumerate(result.findings):
         assert html.escape(f.citation.rstrip("."), quote=True) in text
-        assert f">{'+' if f.status == 'required-planned' else 'X'}{k + 1}</span>" in text
+        assert f">{'met' if f.status == 'required-planned' else 'breaks'} {k + 1}</span>" in text
     for m in result.members:
         assert html.escape(m["name"], quote=True) in text
     assert "@page" in text and "@media print" in text

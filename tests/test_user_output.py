@@ -99,7 +99,7 @@ def test_the_answer_comes_first(demo_outputs, demo):
     for m in result.members:
         assert m["name"] in head, m["name"]
     for k, f in enumerate(result.findings):
-        assert f"{'+' if f.status == 'required-planned' else 'X'}{k + 1} " in head
+        assert f"{k + 1}. " in head
         assert _flat(f.message) in head, f.message
     assert "To do:" in head or not any(f.status != "required-planned" for f in result.findings)
     order = ["Verdict", "Exposure", "Where and when", "Expected physiology", "Assumptions", "Sources",
@@ -133,5 +133,35 @@ def test_report_opens_with_the_verdict(demo_outputs, demo):
     verdict = text[at[1]:at[2]]
     for m in demo_outputs[demo]["result"].members:
         assert m["name"] in verdict
-    for k, _ in enumerate(demo_outputs[demo]["result"].findings):
-        assert f"{k + 1}</span>" in verdict
+    for k, f in enumerate(demo_outputs[demo]["result"].findings):
+        assert f"{'met' if f.status == 'required-planned' else 'breaks'} {k + 1}</span>" in verdict
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_nothing_is_cut_short_at_80_columns(demo_outputs, demo):
+    text = demo_outputs[demo]["terminal"]
+    assert "…" not in text and "..." not in text
+    assert max(len(line) for line in text.splitlines()) <= 80
+    for m in demo_outputs[demo]["result"].members:       # every name whole somewhere (tables fold, never cut)
+        assert m["name"] in _flat(text)
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_one_legend_in_terminal_report_and_docs(demo_outputs, demo):
+    import html
+
+    from altox.legend import glossary_markdown, terms_for
+
+    out = demo_outputs[demo]
+    kind = out["result"].kind
+    terminal, report = _flat(out["terminal"]), out["html"]
+    for term, definition in terms_for(kind):
+        assert _flat(f"{term}: {definition}") in terminal
+        assert f"<dt>{html.escape(term)}</dt><dd>{html.escape(definition)}</dd>" in report
+    assert (ROOT / "docs" / "glossary.md").read_text() == glossary_markdown(), \
+        "docs/glossary.md is stale: python -m altox.legend > docs/glossary.md"
+    # no code or slug as a flag: the flags are the legend's words
+    for leg in json.loads(out["json"])["legs"]:
+        for flag in leg["flags"]:
+            assert re.fullmatch(r"(breaks|met) \d+", flag), flag
+    assert "Night SaO2" not in out["terminal"] or "previous, higher night" in terminal
