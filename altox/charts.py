@@ -378,9 +378,14 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
             ax_sat.plot(x_mid, ref, color=_REF, lw=2.0, zorder=4)
         else:
             ax_sat.stairs(ref, edges, baseline=None, color=_REF, lw=2.0, zorder=4)
-        handles.append(Line2D([], [], color=_REF, lw=2.0,
-                              label=f"SaO2, {REFERENCE_PERSON['name']} (age {REFERENCE_PERSON['age_y']:.0f}, "
-                                    f"Hb {REFERENCE_PERSON['hemoglobin_g_dl']:g} g/dL)"))
+        subj = result.summary.get("subject") or {}
+        if subj.get("role") == "patient":
+            ref_label = (f"SaO2 on air, {subj['name']} (patient, age {subj['age_y']:.0f}, "
+                         f"Hb {subj['hemoglobin_g_dl']:g} g/dL)")
+        else:
+            ref_label = (f"SaO2, {REFERENCE_PERSON['name']} (age {REFERENCE_PERSON['age_y']:.0f}, "
+                         f"Hb {REFERENCE_PERSON['hemoglobin_g_dl']:g} g/dL)")
+        handles.append(Line2D([], [], color=_REF, lw=2.0, label=ref_label))
         if members:
             handles += [Line2D([], [], color=_MEMBER, lw=0.7, alpha=0.55,
                                label=f"SaO2, each person ({len(members)})"),

@@ -33,6 +33,7 @@ class Person:
     home_altitude_m: float = 0.0
     history: tuple = ()
     acetazolamide: bool = False
+    defaults: tuple = ()          # factors not given in the plan, taken from the reference adult
 
 
 @dataclass
@@ -57,16 +58,18 @@ class PlanResult:
 
 def _people(plan) -> list[Person]:
     default_hb = REFERENCE_PERSON["hemoglobin_g_dl"]
+    default_age = REFERENCE_PERSON["age_y"]
     out = []
-    if plan.kind == "expedition":
-        for m in plan.party:
-            out.append(Person(m.name, m.role or "member", m.age_y if m.age_y is not None else 40.0,
-                              m.hemoglobin_g_dl or default_hb, m.home_altitude_m or 0.0,
-                              tuple(m.history), bool(m.acetazolamide)))
-    else:
-        for o in plan.aboard:
-            out.append(Person(o.name, o.role, o.age_y if o.age_y is not None else 40.0,
-                              o.hemoglobin_g_dl or default_hb))
+    source = plan.party if plan.kind == "expedition" else plan.aboard
+    for m in source:
+        defaults = tuple(k for k, v in (("age", m.age_y), ("hemoglobin", m.hemoglobin_g_dl)) if v is None)
+        age = m.age_y if m.age_y is not None else default_age
+        hb = m.hemoglobin_g_dl or default_hb
+        if plan.kind == "expedition":
+            out.append(Person(m.name, m.role or "member", age, hb, m.home_altitude_m or 0.0,
+                              tuple(m.history), bool(m.acetazolamide), defaults))
+        else:
+            out.append(Person(m.name, m.role, age, hb, defaults=defaults))
     return out
 
 
@@ -237,7 +240,10 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     valid = status < NO_STEADY_STATE
     dose_kmh = np.cumsum(np.maximum(tl.altitude_m - floor, 0.0) / 1000.0 * dt)
     levels = sorted(plan.saturation_levels, reverse=True)
-    ref = {k: res[k][0] for k in PHYSIOLOGY_KEYS}
+    # the subject of the tables, summary and chart: the first patient aboard, else the reference adult
+    subject_k = next((j for j, p in enumerate(everyone) if j > 0 and p.role == "patient"), 0)
+    ref = {k: res[k][subject_k] for k in PHYSIOLOGY_KEYS}
+    on_oxygen = _subject_on_planned_oxygen(plan, tl, everyone[subject_k], res, subject_k, f_v, f_r, factors)
     below = {lvl: np.cumsum(dt * (ref["sao2_pct"] < 100 * lvl)) for lvl in levels}
     rule_sets, guidance_notes = select_rule_sets(plan)
     findings, cabin_hours = guidance_findings(plan, rule_sets)
@@ -268,9 +274,12 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         for k in PHYSIOLOGY_KEYS:
             leg[k] = float(ref[k][worst])
         leg["night_sao2_pct"] = float(ref["sao2_pct"][asleep].min()) if asleep.size else None
+        if on_oxygen is not None:
+            ox = on_oxygen[idx]
+            leg["sao2_pct_planned_oxygen"] = None if np.all(np.isnan(ox)) else float(np.nanmin(ox))
         leg["model_valid"] = bool(np.all(valid[:, idx]))
-        leg.update(describe_samples(status[0, idx], reasons[0, idx], pio2_all[0, idx],
-                                    age_y=REFERENCE_PERSON["age_y"]))
+        leg.update(describe_samples(status[subject_k, idx], reasons[subject_k, idx], pio2_all[subject_k, idx],
+                                    age_y=everyone[subject_k].age_y))
         leg["hypoxic_dose_kmh"] = float(dose_kmh[idx[-1]])
         for lvl in levels:
             leg[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][idx[-1]])
@@ -303,6 +312,7 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         without = status[j] == NO_STEADY_STATE
         lowest = int(np.flatnonzero(without)[np.argmin(pio2_all[j][without])]) if without.any() else int(np.argmin(s))
         entry = {"name": p.name, "role": p.role, "age_y": p.age_y, "hemoglobin_g_dl": p.hemoglobin_g_dl,
+                 "defaults_used": list(p.defaults),
                  # no saturation where there is no steady state: the time-limited state instead
                  "min_sao2_pct": None if without.any() else float(s.min()),
                  "min_sao2_leg": int(tl.leg[lowest]) + 1,
@@ -334,22 +344,34 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
         "worst_time_limited": worst_leg["time_limited"],
         "no_steady_state_legs": no_steady,
         "extrapolated_legs": [leg["leg"] for leg in legs if leg["validity_status"] == "extrapolated"],
-        "outside_validated_range": bool(np.any(status[0] > 0)),
+        "outside_validated_range": bool(np.any(status[subject_k] > 0)),
         "total_hours": float(dt.sum()),
         "hypoxic_dose_kmh": float(dose_kmh[-1]), "dose_floor_m": float(floor),
         "rules_broken": len(broken), "rules_touched": len(findings),
     }
     for lvl in levels:
         summary[f"hours_below_{round(100 * lvl)}_pct"] = float(below[lvl][-1])
+    subj = everyone[subject_k]
+    summary["subject"] = {"name": subj.name, "role": subj.role, "age_y": subj.age_y,
+                          "hemoglobin_g_dl": subj.hemoglobin_g_dl,
+                          "defaults_used": list(subj.defaults) if subject_k else [],
+                          "worst_sao2_pct_planned_oxygen": (
+                              None if on_oxygen is None or np.all(np.isnan(on_oxygen)) else float(np.nanmin(on_oxygen))),
+                          "oxygen_fio2_unstated_legs": (
+                              [] if on_oxygen is None else sorted({int(tl.leg[i]) + 1 for i in np.flatnonzero(
+                                  _oxygen_for(plan, tl, subj) & np.isnan(on_oxygen))}))}
     if plan.kind == "flight":
         for threshold_ft, hours in cabin_hours.items():
             summary[f"hours_cabin_above_{int(threshold_ft)}_ft"] = hours
     samples = {"time_h": tl.time_h, "duration_h": dt, "leg": tl.leg + 1, "altitude_m": tl.altitude_m,
                "aircraft_altitude_m": tl.aircraft_altitude_m, "sleeping": tl.sleeping,
                "oxygen_code": tl.oxygen, "cabin_pressure_altitude_ft": tl.cabin_pressure_altitude_ft,
-               **ref, "validity_status": status[0], "hypoxic_dose_kmh": dose_kmh}
-    notes = ["Physiology on air for a resting reference adult (age 40, Hb 14.5 g/dL) unless a member is "
-             "named; planned supplemental oxygen is flagged, not applied.",
+               **ref, "validity_status": status[subject_k], "hypoxic_dose_kmh": dose_kmh}
+    subject_note = ("Physiology on air for a resting reference adult (age 40, Hb 14.5 g/dL) unless a member is "
+                    "named; planned supplemental oxygen is flagged, not applied.") if not subject_k else (
+        f"The tables, summary and chart describe {subj.name} (the patient), at rest, on air; the same person with "
+        "the planned oxygen is shown beside it where the plan states its FiO2.")
+    notes = [subject_note,
              "Per-leg values are those of the worst awake sample (lowest SaO2) in the leg; 'night' is the "
              "lowest while asleep, with the lower chemoreflex drive of sleep (docs/individual.md).",
              "Members' values include their age, hemoglobin, ventilatory response category, acetazolamide, "
@@ -424,6 +446,42 @@ def plan_extras(plan, result, *, members: int | None = None, seed: int | None = 
         if observed:
             extras["readings"] = review(plan, result, central_ranges(result))
     return extras
+
+
+def _oxygen_for(plan, tl, person) -> np.ndarray:
+    """Samples where the plan gives ``person`` supplemental oxygen (flights: by role)."""
+    from .timeline import OXYGEN_CODES
+
+    if plan.kind != "flight":
+        return np.zeros(len(tl), dtype=bool)
+    codes = {"patient": ("patient", "all"), "crew": ("crew", "all")}.get(person.role, ("all",))
+    return np.isin(tl.oxygen, [OXYGEN_CODES[c] for c in codes])
+
+
+def _subject_on_planned_oxygen(plan, tl, person, res, k, f_v, f_r, factors):
+    """The subject's SaO2 with the planned oxygen (NaN where it is planned without an FiO2); None without a patient."""
+    if person.role != "patient":
+        return None
+    on = _oxygen_for(plan, tl, person)
+    if not on.any():
+        return None
+    fio2 = np.full(len(tl), np.nan)
+    for i, leg in enumerate(plan.legs):
+        if leg.fio2 is not None:
+            fio2[tl.leg == i] = leg.fio2
+    out = np.asarray(res["sao2_pct"][k], dtype=float).copy()
+    known = on & ~np.isnan(fio2)
+    out[on & np.isnan(fio2)] = np.nan
+    if known.any():
+        from .chain import assess
+
+        row = {key: (np.asarray(v)[k] if np.ndim(v) >= 2 and np.shape(v)[0] > k else v) for key, v in factors.items()}
+        row = {key: (np.broadcast_to(v, (len(tl),))[known] if np.ndim(v) else v) for key, v in row.items()}
+        r = assess(altitude_m=np.asarray(tl.altitude_m)[known], pb_mmhg=np.asarray(tl.pb_mmhg, dtype=float)[known],
+                   atmosphere="isa", fio2=fio2[known], f_ventilatory=np.asarray(f_v)[k][known],
+                   f_renal=np.asarray(f_r)[k][known], **row)
+        out[known] = np.asarray(r["sao2_pct"], dtype=float)
+    return out
 
 
 def _factor_keywords(plan, everyone, from_plan: bool, tl) -> dict:

@@ -269,11 +269,12 @@ def verdict_renderables(result, verdict: dict) -> list:
     out = [Text("Verdict", style="bold")]
     state = "asleep" if w["asleep"] else "awake"
     where = w["label"] if w["label"].lower().startswith("leg") else f"{w['label']} (leg {w['leg']})"
+    who = w.get("subject", "reference adult")
     if w.get("time_limited"):   # no steady state: never a saturation
-        out.append(Text(f"Worst moment: {where}: {w['time_limited']}, reference adult on air."))
+        out.append(Text(f"Worst moment: {where}: {w['time_limited']}, {who} on air."))
     else:
         out.append(Text(f"Worst moment: {where}: expected SaO2 {w['sao2_pct']:.0f} % "
-                        f"{state}, reference adult at rest on air."))
+                        f"{state}, {who} at rest on air."))
     people = verdict["people"]
     if len(people) > 1:
         expedition = result.kind == "expedition"
@@ -335,8 +336,19 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
     lines = [f"Hypoxic dose: {s['hypoxic_dose_kmh']:.1f} km.h above {s['dose_floor_m']:,.0f} m over "
              f"{_fmt_h(s['total_hours'])}."]
     below = [f"{k.split('_')[2]} %: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_below_")]
+    subj = s.get("subject") or {"name": "reference adult", "role": "reference"}
     if below:
-        lines.append("Time below SaO2 (reference adult): " + "; ".join(below) + ".")
+        lines.append(f"Time below SaO2 ({subj['name']}): " + "; ".join(below) + ".")
+    if subj["role"] == "patient":
+        lines.append(f"Subject: {subj['name']} (the patient), age {subj['age_y']:.0f}, Hb "
+                     f"{subj['hemoglobin_g_dl']:.1f} g/dL: lowest SaO2 on air {s['worst_sao2_pct']:.0f} % "
+                     f"(leg {s['worst_leg']}).")
+        on = subj.get("worst_sao2_pct_planned_oxygen")
+        unstated = subj.get("oxygen_fio2_unstated_legs") or []
+        if on is not None:
+            lines.append(f"With the planned oxygen: lowest SaO2 {on:.0f} %"
+                         + (f" (oxygen planned without an FiO2 on leg(s) {', '.join(map(str, unstated))}: not "
+                            "computed there)." if unstated else "."))
     cabin = [f"{int(k.split('_')[3]):,} ft: {_fmt_h(v)}" for k, v in s.items() if k.startswith("hours_cabin_above_")]
     if cabin:
         lines.append("Time with cabin above: " + "; ".join(cabin) + ".")
@@ -346,10 +358,15 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
         for name in ("Name", "Role", "Age", "Hb g/dL", "Lowest SaO2 %", "Leg", "Risk (guidance)"):
             people.add_column(name, justify="left" if name in ("Name", "Role", "Risk (guidance)") else "right", overflow="fold")
         for m in result.members:
-            people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}", f"{m['hemoglobin_g_dl']:.1f}",
+            dflt = set(m.get("defaults_used", ()))
+            people.add_row(m["name"], m["role"], f"{m['age_y']:.0f}" + ("*" if "age" in dflt else ""),
+                           f"{m['hemoglobin_g_dl']:.1f}" + ("*" if "hemoglobin" in dflt else ""),
                            saturation_text(m["min_sao2_pct"], m.get("time_limited") and "none", unit=""),
                            str(m["min_sao2_leg"]), m.get("risk_category") or "-")
         out.append(people)
+        if any(m.get("defaults_used") for m in result.members):
+            out.append(Text("* a default (the reference adult's age 40 or Hb 14.5 g/dL), not given in the plan: "
+                            "not the person's own value."))
         texts: dict[str, list[str]] = {}
         for m in result.members:
             if m.get("prophylaxis"):
@@ -423,7 +440,8 @@ def leg_renderables(result, *, feet: bool = False) -> list:
                       f"{leg['inspired_po2_mmhg']:.0f}", f"{leg['hypoxic_dose_kmh']:.1f}")
     out.append(_fold(where))
 
-    phys = Table(title="Expected physiology at rest, on air (reference adult, worst awake moment of each leg)",
+    who = (result.summary.get("subject") or {}).get("name", "reference adult")
+    phys = Table(title=f"Expected physiology at rest, on air ({who}, worst awake moment of each leg)",
                  title_justify="left", pad_edge=False)
     night = result.kind == "expedition"
     names = ["Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %"]

@@ -206,10 +206,10 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
     length = (f"{len(result.legs)} days" if result.kind == "expedition"
               else f"{len(result.legs)} legs, {_fmt_h(s['total_hours'])}")
     if w.get("time_limited"):   # no steady state: never a saturation
-        worst = f"<strong>{_e(w['time_limited'])}</strong>, reference adult on air."
+        worst = f"<strong>{_e(w['time_limited'])}</strong>, {_e(w.get('subject', 'reference adult'))} on air."
     else:
         worst = (f"expected SaO2 <strong>{w['sao2_pct']:.0f} %</strong> {'asleep' if w['asleep'] else 'awake'}, "
-                 "reference adult at rest on air.")
+                 f"{_e(w.get('subject', 'reference adult'))} at rest on air.")
     parts = ['<section id="summary">', "<h2>Verdict</h2>",
              f"<p><strong>Worst moment:</strong> {_e(w['label'])} (leg {w['leg']}): {worst}</p>"]
     if len(v["people"]) > 1:
@@ -246,7 +246,13 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
              ("Hypoxic dose", f"{s['hypoxic_dose_kmh']:.1f} km&middot;h above {s['dose_floor_m']:,.0f} m")]
     below = [f"{lvl} %: {_e(_fmt_h(s[f'hours_below_{lvl}_pct']))}" for lvl in _levels(result)]
     if below:
-        items.append(("Time below SaO2 (reference adult)", "; ".join(below)))
+        subj = s.get("subject") or {"name": "reference adult", "role": "reference"}
+        items.append((f"Time below SaO2 ({_e(subj['name'])})", "; ".join(below)))
+        if subj["role"] == "patient" and subj.get("worst_sao2_pct_planned_oxygen") is not None:
+            unstated = subj.get("oxygen_fio2_unstated_legs") or []
+            items.append(("With the planned oxygen", f"lowest SaO2 {subj['worst_sao2_pct_planned_oxygen']:.0f} %"
+                          + (f" (FiO2 not stated on leg(s) {', '.join(map(str, unstated))}: not computed there)"
+                             if unstated else "")))
     cabin = [(int(k.split("_")[3]), v_) for k, v_ in s.items() if k.startswith("hours_cabin_above_")]
     if cabin:
         items.append(("Time with the cabin above", "; ".join(f"{ft:,} ft: {_e(_fmt_h(h))}" for ft, h in cabin)))
@@ -267,7 +273,9 @@ def _chart(result, feet: bool, rule_sets) -> str:
         what = ("Top: altitude through each day (thin line), nights at the sleeping altitude (thick line), "
                 "the day's high points (triangles), and the sleeping altitude above which the ascent-rate "
                 "guidance applies.")
-    cap = (f"{what} Bottom: expected SaO2 at rest on air for the reference adult (thick line), each person "
+    subj = (result.summary.get("subject") or {}).get("name", "reference adult")
+    who = "the reference adult" if subj == "reference adult" else f"{subj} (the patient)"
+    cap = (f"{what} Bottom: expected SaO2 at rest on air for {who} (thick line), each person "
            "(thin lines) and the range between them, with the plan's saturation levels (dots). Hatched: legs "
            "where the plan does not meet a guidance rule (flags as in the tables); grey: rest days; "
            "cross-hatched strip: supplemental oxygen planned. Model estimates, not measurements.")
@@ -403,7 +411,7 @@ def _legs(result, feet: bool) -> str:
                       f"{leg['sao2_pct']:.0f}", f"{leg['o2_content_ml_dl']:.1f}", _flags_html(result, leg)], cls))
     t1 = _table("Where and when (PB and PIO2 at the worst moment of the leg; dose cumulative to its end)",
                 headers, numeric, where)
-    t2 = _table("Expected physiology at rest, on air (reference adult, worst moment of each leg)",
+    t2 = _table(f"Expected physiology at rest, on air ({_e((result.summary.get('subject') or {}).get('name', 'reference adult'))}, worst moment of each leg)",
                 ["Leg", "PACO2 mmHg", "PAO2 mmHg", "PaO2 mmHg", "PaO2 kPa", "SaO2 %", "CaO2 mL/dL", "Flags"],
                 [True] * 7 + [False], phys)
     return (f'<section id="legs">\n<h2>{"Day by day" if expedition else "Leg by leg"}</h2>\n{t1}\n{t2}\n'

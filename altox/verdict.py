@@ -62,7 +62,8 @@ def plan_verdict(result, rule_sets=None) -> dict:
     Returns
     -------
     dict
-        ``worst`` (the reference adult's worst moment: leg, label, SaO2, awake or asleep),
+        ``worst`` (the subject's worst moment: leg, label, SaO2, awake or asleep, ``subject``: the
+        patient aboard, else the reference adult),
         ``people`` (each person's worst moment, with the expected range where computed, and
         the guideline risk category on an expedition), ``findings`` (each finding numbered
         as in the tables, with its status in words and what to do) and ``counts``.
@@ -90,11 +91,15 @@ def plan_verdict(result, rule_sets=None) -> dict:
                 row["asleep"] = bool(at["sleeping"])
         return row
 
-    people.append(entry("reference adult", "model", s["worst_sao2_pct"], s["worst_leg"],
-                        time_limited=s.get("worst_time_limited")))
-    if people[0]["asleep"] is None:
-        people[0]["asleep"] = asleep
-    for m in result.members:
+    subject = (s.get("subject") or {}).get("name", "reference adult")
+    members = sorted(result.members, key=lambda m: m["name"] != subject)   # the patient first
+    if subject == "reference adult":
+        people.append(entry("reference adult", "model", s["worst_sao2_pct"], s["worst_leg"],
+                            time_limited=s.get("worst_time_limited")))
+        if people[0]["asleep"] is None:
+            people[0]["asleep"] = asleep
+    worst["subject"] = subject
+    for m in members:
         people.append(entry(m["name"], m["role"], m["min_sao2_pct"], m["min_sao2_leg"], m.get("risk_category"),
                             m.get("time_limited")))
     findings = []

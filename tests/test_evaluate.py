@@ -142,3 +142,35 @@ def test_demo_plans_stay_inside_the_model():
     for path in sorted((Path(__file__).resolve().parents[1] / "profiles").glob("*.yaml")):
         r = evaluate_plan(load_plan(path))
         assert all(leg["model_valid"] for leg in r.legs), path.name
+
+
+# -- each person as themselves: the patient is the subject ---------------------------------------------------
+def test_medevac_summary_table_and_chart_describe_the_patient():
+    import numpy as np
+
+    from altox.evaluate import evaluate_plan
+    from altox.profile import load_plan
+
+    r = evaluate_plan(load_plan("profiles/medevac-transfer.yaml"))
+    subj = r.summary["subject"]
+    assert subj["name"] == "Patient M." and subj["role"] == "patient" and subj["age_y"] == 71.0
+    patient = next(m for m in r.members if m["name"] == "Patient M.")
+    assert r.summary["worst_sao2_pct"] == pytest.approx(patient["min_sao2_pct"])
+    # the chart and the per-leg tables read the samples: they are the patient's own
+    np.testing.assert_array_equal(r.samples["sao2_pct"], r.member_samples["Patient M."]["sao2_pct"])
+    # with the planned oxygen (cruise at FiO2 28 %) the patient is better oxygenated; legs where oxygen is
+    # planned without an FiO2 are not computed and are named
+    cruise = next(leg for leg in r.legs if leg.get("phase") == "cruise")
+    assert cruise["sao2_pct_planned_oxygen"] > cruise["sao2_pct"] + 2.0
+    assert subj["oxygen_fio2_unstated_legs"] == [2, 4]
+    # defaults are marked as defaults, not as the person's values
+    crew = next(m for m in r.members if m["name"] == "Hal Brennock")
+    assert crew["defaults_used"] == ["hemoglobin"] and patient["defaults_used"] == []
+
+
+def test_plan_without_patient_keeps_the_reference_adult():
+    from altox.evaluate import evaluate_plan
+    from altox.profile import load_plan
+
+    r = evaluate_plan(load_plan("profiles/trek-teskavor.yaml"))
+    assert r.summary["subject"]["name"] == "reference adult"

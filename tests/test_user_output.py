@@ -119,7 +119,10 @@ def test_json_sections_follow_the_terminal_order(demo_outputs, demo):
     assert keys == [k for k in JSON_SECTIONS if k in data]
     assert keys[:6] == ["plan", "kind", "source", "caution_short", "rule_sets", "verdict"]
     v = data["verdict"]
-    assert [p["name"] for p in v["people"]] == ["reference adult"] + [m["name"] for m in data["members"]]
+    patients = [m["name"] for m in data["members"] if m["role"] == "patient"][:1]
+    first = patients or ["reference adult"]      # a plan with a patient describes the patient first
+    assert [p["name"] for p in v["people"]] == first + [m["name"] for m in data["members"]
+                                                        if m["name"] not in patients]
     assert [f["number"] for f in v["findings"]] == list(range(1, len(data["findings"]) + 1))
     assert all(f["what_to_do"] for f in v["findings"])
 
