@@ -18,6 +18,8 @@ References
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 from . import blood
@@ -161,7 +163,6 @@ def equivalent_altitude(fio2, pb_mmhg, atmosphere="isa", body_temp_c=37.0):
 # Model parameters, resting adult; see altox/data/models.yaml for their sources.
 REST_AV_DIFFERENCE_ML_DL = 4.5       # arterial - mixed venous O2 content at rest
 REST_CARDIAC_OUTPUT_ML_MIN = 6000.0
-REST_DLO2_ML_MIN_MMHG = 30.0         # lung diffusing capacity for O2 at rest
 
 
 def sea_level_aado2(age_y):
@@ -226,10 +227,12 @@ def _po2_for_content(content_ml_dl, hb_g_dl, factor, upper_mmhg):
         f, s, _, _ = _content_residual(p, content_ml_dl, cap, factor)
         bad = np.flatnonzero(~((np.abs(f) < 1e-9) & (p >= 0.0)))
     if bad.size:
+        # flat indices: index the flattened arrays (p and s are fresh arrays of the full shape)
         def sub(a):
-            return np.broadcast_to(a, p.shape)[bad]
-        p[bad] = _po2_for_content_safeguarded(sub(content_ml_dl), sub(hb_g_dl), sub(factor), sub(upper))
-        s[bad] = blood.standard_saturation(p[bad] * sub(factor))
+            return np.broadcast_to(a, p.shape).reshape(-1)[bad]
+        p_flat, s_flat = p.reshape(-1), s.reshape(-1)
+        p_flat[bad] = _po2_for_content_safeguarded(sub(content_ml_dl), sub(hb_g_dl), sub(factor), sub(upper))
+        s_flat[bad] = blood.standard_saturation(p_flat[bad] * sub(factor))
     return p, s
 
 
@@ -257,8 +260,16 @@ def _po2_for_content_safeguarded(content_ml_dl, hb_g_dl, factor, upper_mmhg):
     return p
 
 
+@lru_cache(maxsize=1)
+def default_dlo2_ml_min_mmhg() -> float:
+    """The lung's effective resting diffusing capacity for O2 (``altox/data/models.yaml``). [mL/min/mmHg]"""
+    from .ventilation import model_coefficients
+
+    return float(model_coefficients()["blood"]["dlo2_ml_min_mmhg"]["value"])
+
+
 def arterial_blood(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmhg=40.0,
-                   temp_c=37.0, dlo2_ml_min_mmhg=REST_DLO2_ML_MIN_MMHG,
+                   temp_c=37.0, dlo2_ml_min_mmhg=None,
                    cardiac_output_ml_min=REST_CARDIAC_OUTPUT_ML_MIN,
                    av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL, p50_mmhg=None):
     """Arterial PO2 and O2 saturation from alveolar PO2: diffusion limitation, then venous admixture.
@@ -269,7 +280,9 @@ def arterial_blood(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_m
 
     1. Diffusion (Piiper & Scheid 1981, linear-curve Bohr integration):
        ``Pc' = PA - (PA - Pv) exp(-DL / (beta Q))``, ``beta`` the chord slope of the
-       content curve between mixed-venous and alveolar PO2.
+       content curve between mixed-venous and alveolar PO2. The limitation matters only on the
+       steep part of the curve (at altitude, where ``beta`` is large), hardly at sea level; the
+       lung's effective resting DL is calibrated on the acute A-a difference measured at 4,559 m.
     2. Venous admixture (shunt fraction ``Qs/Qt``) mixing mixed-venous blood
        (``Cv = Ca - (a-v difference)``) into end-capillary blood:
        ``Ca = Cc' - (Qs/Qt) avd / (1 - Qs/Qt)``; PaO2 is the PO2 of that content.
@@ -285,8 +298,8 @@ def arterial_blood(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_m
         :func:`shunt_fraction_for_age`).
     ph, pco2_mmhg, temp_c : numeric
         Arterial acid-base state and temperature for the curve. [-, mmHg, degC]
-    dlo2_ml_min_mmhg : numeric
-        Lung diffusing capacity for O2. [mL/min/mmHg]
+    dlo2_ml_min_mmhg : numeric, optional
+        Lung diffusing capacity for O2; default the model table's effective resting value. [mL/min/mmHg]
     cardiac_output_ml_min : numeric
         [mL/min]
     av_difference_ml_dl : numeric
@@ -313,7 +326,8 @@ def arterial_blood(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_m
     pv = np.minimum(np.asarray(blood.standard_po2_for_saturation(s_ven)) / factor, pa)
     gap = np.maximum(pa - pv, 1e-9)
     beta_ml_ml = (cap * (s_alv - s_ven) / gap + sol) / 100.0
-    ratio = np.asarray(dlo2_ml_min_mmhg, dtype=float) / (beta_ml_ml * np.asarray(cardiac_output_ml_min))
+    dl = default_dlo2_ml_min_mmhg() if dlo2_ml_min_mmhg is None else dlo2_ml_min_mmhg
+    ratio = np.asarray(dl, dtype=float) / (beta_ml_ml * np.asarray(cardiac_output_ml_min))
     p_end = pa - (pa - pv) * np.exp(-ratio)
     s_end = np.asarray(blood.standard_saturation(p_end * factor))
     c_end = cap * s_end + sol * p_end
@@ -324,7 +338,7 @@ def arterial_blood(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_m
 
 
 def arterial_po2(pao2_mmhg, hb_g_dl=14.5, shunt_fraction=0.02, ph=7.40, pco2_mmhg=40.0,
-                 temp_c=37.0, dlo2_ml_min_mmhg=REST_DLO2_ML_MIN_MMHG,
+                 temp_c=37.0, dlo2_ml_min_mmhg=None,
                  cardiac_output_ml_min=REST_CARDIAC_OUTPUT_ML_MIN,
                  av_difference_ml_dl=REST_AV_DIFFERENCE_ML_DL, p50_mmhg=None):
     """Arterial PO2 from alveolar PO2: diffusion limitation, then venous admixture.

@@ -50,11 +50,10 @@ class VentilationParameters:
 
     baseline_paco2_mmhg: float
     central_ph_gain: float
-    hypoxic_gain_acute_mmhg: float
-    hypoxic_asymptote_mmhg: float
-    hypoxic_smoothing_mmhg: float
+    hypoxic_gain_acute: float
     acclimatized_gain_multiplier: float
     sensor_aado2_mmhg: float
+    sleep_hypoxic_gain_exponent: float
     ventilatory_time_constant_days: float
     renal_time_constant_days: float
     deacclimatization_time_constant_days: float
@@ -93,17 +92,24 @@ def acclimatization_fractions(days, params: VentilationParameters | None = None)
     return f_v, f_r
 
 
-def _phi(po2, p: VentilationParameters):
-    w = p.hypoxic_smoothing_mmhg
-    z = (po2 - p.hypoxic_asymptote_mmhg) / w
-    return 1.0 / (w * (np.maximum(z, 0.0) + np.log1p(np.exp(-np.abs(z)))))
+def _desaturation_terms(po2):
+    """Standard-curve saturation at ``po2`` (clamped at 0) and its derivative dS/dP (Severinghaus 1979)."""
+    p = np.maximum(po2, 0.0)
+    cube = p * p
+    cube += 150.0
+    cube *= p
+    denom = cube + 23400.0
+    s = cube / denom
+    ds = (3.0 * p * p + 150.0) * 23400.0 / (denom * denom)
+    ds *= po2 > 0.0
+    return s, ds
 
 
 @lru_cache(maxsize=1)
-def _sea_level_phi() -> float:
+def _sea_level_saturation() -> float:
     p = default_parameters()
     pa_sl = float(alveolar_po2(SEA_LEVEL_MMHG, p.baseline_paco2_mmhg))
-    return float(_phi(pa_sl - p.sensor_aado2_mmhg, p))
+    return float(blood.standard_saturation(pa_sl - p.sensor_aado2_mmhg))
 
 
 def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hypoxic_gain_scale,
@@ -111,100 +117,67 @@ def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hy
     """The inputs (PIO2 broadcast to the common shape, the others as given) and the residual-and-state
     function of ``u = ln x``.
 
-    Everything that does not depend on ``u`` is folded into coefficients once: with
-    ``z = (PAO2 - sensor AaDO2 - asymptote) / w = z0 - PACO2 factor / w`` and ``S = softplus(z)``
-    the hypoxic drive is ``a0 + a1 / S``, and with ``r = ln(HCO3 / PCO2)`` the central drive is
-    ``b0 - b1 r`` (``pH = pK' - log10(0.0307) + r / ln 10``).
+    Everything that does not depend on ``u`` is folded into coefficients once. The sensed PO2 is
+    ``P = PIO2 - sensor AaDO2 - PACO2 F`` (F the alveolar gas factor); the hypoxic drive is
+    ``h = 1 + G (S_sl - S(P))`` on the standard curve; with ``r = ln(HCO3 / PCO2)`` the central
+    drive is ``b0 - b1 r`` with the alkaline or the acid gain (``pH = pK' - log10(0.0307) + r / ln 10``).
     """
     p = params or default_parameters()
     arrays = [np.asarray(a, dtype=float) for a in (pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio,
                                                    hypoxic_gain_scale, drive_scale, hco3_offset_mmol_l)]
     pio2 = np.broadcast_to(arrays[0], np.broadcast_shapes(*(a.shape for a in arrays)))
     _, fio2_a, rq_a, fv, fr, met, gscale, dscale, off = arrays
-    w = p.hypoxic_smoothing_mmhg
-    fw = alveolar_gas_factor(fio2_a, rq_a) / w
-    z0 = (pio2 - (p.sensor_aado2_mmhg + p.hypoxic_asymptote_mmhg)) / w
-    gain = gscale * p.hypoxic_gain_acute_mmhg * (1.0 + (p.acclimatized_gain_multiplier - 1.0) * fv)
-    a0 = 1.0 - gain * _sea_level_phi()
-    a1 = gain / w
-    k_low, k_high = blood.secondary_response_slopes(fr)
+    factor = alveolar_gas_factor(fio2_a, rq_a)
+    p0 = pio2 - p.sensor_aado2_mmhg
+    # sleep (drive_scale < 1) lowers the hypoxic gain too, by drive_scale ** exponent
+    gain = (gscale * p.hypoxic_gain_acute * (1.0 + (p.acclimatized_gain_multiplier - 1.0) * fv)
+            * dscale ** p.sleep_hypoxic_gain_exponent)
+    s_sl = _sea_level_saturation()
+    k_acute = blood.ACUTE_HCO3_PER_MMHG
+    k_renal = (blood.secondary_response_slopes(fr)[0] - k_acute)
+    k_high = blood.secondary_response_slopes(fr)[1]
+    # the kidney's answer to alkalosis is not applied to the hypocapnia that compensates a metabolic
+    # acidosis (Adrogue & Madias 2010: PCO2 falls about 1.2 mmHg per mmol/L of bicarbonate lost)
+    shift = METABOLIC_ACIDOSIS_PCO2_PER_HCO3 * np.maximum(-off, 0.0)
     hco3_n = blood.NORMAL_HCO3_MMOL_L + off
     base = p.baseline_paco2_mmhg * met
     ph0 = blood.PK_CARBONIC - np.log10(blood.CO2_SOLUBILITY_MMOL_L_MMHG)
-    b0 = 1.0 - p.central_ph_gain * (ph0 - 7.40)
-    b1 = p.central_ph_gain / _LN10
+    kgain = p.central_ph_gain
 
     def state(u, derivative=False, exact=True):
         """``g`` and the state at ``u``; with ``derivative`` also ``dg/du``.
 
-        ``exact=False`` gives the derivative of the unclamped expressions, cheaper: for the
-        whole-array Newton steps, whose results are checked on the exact residual."""
+        ``exact`` is kept for the callers; the derivative is the same either way."""
         shape = np.broadcast_shapes(np.shape(u), pio2.shape)
-        if not shape:   # the in-place arithmetic below needs arrays, not numpy scalars
+        if not shape:
             return tuple(a.reshape(()) for a in state(np.reshape(u, 1), derivative, exact))
-        paco2 = np.empty(shape)
-        np.negative(u, out=paco2)
-        np.exp(paco2, out=paco2)
-        paco2 *= base
+        paco2 = base * np.exp(-u)
         d = paco2 - 40.0
-        hco3_raw = np.minimum(d, 0.0)
-        hco3_raw *= k_low
-        hco3 = np.maximum(d, 0.0)
-        hco3 *= k_high
-        hco3_raw += hco3
-        hco3_raw += hco3_n
-        np.maximum(hco3_raw, 1.0, out=hco3)
-        r = np.divide(hco3, paco2)
-        np.log(r, out=r)
-        central = r * -b1
-        central += b0
-        np.maximum(central, 0.0, out=central)
-        z = paco2 * -fw
-        z += z0
-        soft = np.abs(z)
-        np.negative(soft, out=soft)
-        np.exp(soft, out=soft)
-        np.log1p(soft, out=soft)
-        np.maximum(z, 0.0, out=z)
-        soft += z
-        hyp_raw = np.divide(a1, soft, out=z)
-        hyp_raw += a0
+        below = np.minimum(d, 0.0)
+        renal = np.minimum(d + shift, 0.0)
+        hco3_raw = hco3_n + k_acute * below + k_renal * renal + k_high * np.maximum(d, 0.0)
+        hco3 = np.maximum(hco3_raw, 1.0)
+        r = np.log(hco3 / paco2)
+        ph = ph0 + r / _LN10
+        central_raw = 1.0 - kgain * (ph - 7.40)
+        central = np.maximum(central_raw, 0.0)
+        sens = p0 - factor * paco2
+        sat, dsat = _desaturation_terms(sens)
+        hyp_raw = 1.0 + gain * (s_sl - sat)
         hypoxic = np.maximum(hyp_raw, 0.5)
-        drive = central * hypoxic
-        drive *= dscale
-        g = np.maximum(drive, 1e-12)
-        np.log(g, out=g)
-        np.subtract(u, g, out=g)
+        drive = dscale * central * hypoxic
+        g = u - np.log(np.maximum(drive, 1e-12))
         if not derivative:
-            r /= _LN10
-            r += ph0
-            return g, paco2, hco3, r
-        k = (d < 0.0) * (k_low - k_high)        # the secondary-response slope in use at this PCO2
-        k += k_high
-        dr = k * paco2                           # dr/du = 1 - k PCO2 / HCO3
-        if exact:
-            dr *= hco3_raw > 1.0
-        dr /= hco3
-        np.subtract(1.0, dr, out=dr)
-        dr *= b1                                 # -d(ln central)/du, times central
-        sig = np.expm1(-soft)                    # -sigmoid(z) = -dS/dz
-        sig *= fw * a1
-        sig *= paco2
-        soft *= soft
-        soft *= hypoxic
-        sig /= soft                              # d(ln hypoxic)/du
+            return g, paco2, hco3, ph
+        # d PCO2 / du = -PCO2; d HCO3 / du = -k PCO2 with the slope in use
+        k = k_acute * (d < 0.0) + k_renal * (d + shift < 0.0) + k_high * (d > 0.0)
+        dr = 1.0 - k * paco2 * (hco3_raw > 1.0) / hco3              # dr/du
+        dln_central = -kgain / _LN10 * dr / np.where(central > 0.0, central, 1.0)
+        dln_hyp = -gain * dsat * factor * paco2 / hypoxic            # d ln h / du (dP/du = F PCO2)
         with np.errstate(divide="ignore", invalid="ignore"):
-            if exact:
-                dg = np.where(drive > 1e-12, 1.0 + np.where(central > 0.0, dr / central, 0.0)
-                              - np.where(hyp_raw > 0.5, sig, 0.0), 1.0)
-            else:
-                dr /= central
-                dg = dr
-                dg += 1.0
-                dg -= sig
-        r /= _LN10
-        r += ph0
-        return g, dg, paco2, hco3, r
+            dg = np.where(drive > 1e-12, 1.0 - np.where(central_raw > 0.0, dln_central, 0.0)
+                          - np.where(hyp_raw > 0.5, dln_hyp, 0.0), 1.0)
+        return g, dg, paco2, hco3, ph
 
     return pio2, state, (pio2, fio2_a, rq_a, fv, fr, met, gscale, dscale, off)
 
@@ -329,11 +302,16 @@ def equilibrium(pio2_mmhg, fio2=AIR_FIO2, rq=0.8, f_ventilatory=0.0, f_renal=0.0
             # acceptance (10 x tolerance) the drive product is 0 x infinity, no steady state
             unresolved = cliff[idx] & ~(np.abs(dgs) * np.spacing(np.abs(us)) <= 10.0 * tolerance)
             converged[idx[unresolved]] = False
+    # no steady state where the inspired gas cannot support the PCO2 found: alveolar PO2 at or below
+    # zero (the saturation-linear drive is bounded, so the equation still has a root there)
+    converged &= (pio2 - alveolar_gas_factor(args[1], args[2]) * paco2) > 0.0
     return {"paco2_mmhg": paco2.reshape(shape), "ventilation_ratio": np.exp(u).reshape(shape),
             "hco3_mmol_l": hco3.reshape(shape), "ph": ph.reshape(shape),
             "converged": converged.reshape(shape), "iterations": used}
 
 
+#: respiratory compensation of a metabolic acidosis: fall in PCO2 per mmol/L of bicarbonate lost [AdrogueMadias2010]
+METABOLIC_ACIDOSIS_PCO2_PER_HCO3 = 1.2
 FAST_NEWTON_STEPS = 2
 VARIED_EXTRA_STEPS = 2
 # central drive (1 at pH 7.40) below which a root is checked for being resolvable (see equilibrium)

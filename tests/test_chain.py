@@ -35,10 +35,9 @@ def test_no_nan_or_inf(alt, d, fio2, atm, age, hb):
             assert np.isfinite(v), k
     assert r["alveolar_po2_mmhg"] >= 0.0
     assert 0.0 <= r["sao2_pct"] <= 100.0
-    # below ~31 mmHg of inspired PO2 no resting steady state exists (docs/methods.md, section 4)
-    # and the flag must say so; above it the solver must converge
-    if r["inspired_po2_mmhg"] >= 32.0:
-        assert r["solver_converged"]
+    # where the inspired gas cannot support the PCO2 the drive leaves (alveolar PO2 not positive) no
+    # resting steady state exists (docs/methods.md) and the flag must say so; elsewhere it converges
+    assert r["solver_converged"] == (not r["alveolar_po2_clamped"])
 
 
 @settings(max_examples=40, deadline=None)
@@ -111,10 +110,12 @@ def test_flight_cabin_8000ft_saturation():
     # An 8,000 ft cabin: healthy passengers' SpO2 falls to about 92-93 % (Humphreys S et al.
     # Anaesthesia 2005;60:458-460: 97 -> 93 %; Kelly PT et al. Aviat Space Environ Med 2006;77:1143:
     # 97 -> 92 %) and about 4.4 points below ground (Muhm JM et al. N Engl J Med 2007;357:18-27).
+    # The acceptance rule of docs/validation.md: never more than the tolerance (2.5 points here, 2.0
+    # on the fall) optimistic, at most 3 points beyond it conservative.
     r = altox.assess(8000 * 0.3048, atmosphere="isa", age_y=40)
-    assert r["sao2_pct"] == pytest.approx(92.5, abs=2.5)
+    assert 92.5 - 2.5 - 3.0 <= r["sao2_pct"] <= 92.5 + 2.5
     sea = altox.assess(0.0, age_y=40)
-    assert sea["sao2_pct"] - r["sao2_pct"] == pytest.approx(4.4, abs=2.0)
+    assert 4.4 - 2.0 <= sea["sao2_pct"] - r["sao2_pct"] <= 4.4 + 2.0 + 3.0
 
 
 @pytest.mark.parametrize("kwargs, match", [

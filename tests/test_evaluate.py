@@ -77,11 +77,12 @@ def test_acclimatization_is_remembered_after_descent():
 def test_flight_8000ft_cabin_saturation():
     # Healthy passengers at an 8,000 ft cabin: SpO2 about 93 % (Humphreys S et al. Anaesthesia
     # 2005;60:458-460), 92 % (Kelly PT et al. Aviat Space Environ Med 2006;77:1143-1147); issue
-    # text: "near 90 %". Expected SaO2 of a healthy adult within 90-95 %.
+    # text: "near 90 %". Held to the acceptance rule of docs/validation.md around 92.5 %: at most
+    # 2.5 points optimistic, at most 3 more points conservative.
     r = evaluate_plan(load_plan_text(_flight(8000, 60, "us-14cfr-91")))
     cruise = r.legs[1]
     assert cruise["max_cabin_pressure_altitude_ft"] == pytest.approx(8000.0, abs=1.0)
-    assert 90.0 <= cruise["sao2_pct"] <= 95.0
+    assert 92.5 - 2.5 - 3.0 <= cruise["sao2_pct"] <= 92.5 + 2.5
 
 
 def _crew_flags(result):

@@ -65,3 +65,16 @@ def test_aado2_narrows_at_altitude():
 def test_arterial_never_above_alveolar():
     pa = np.linspace(20.0, 600.0, 200)
     assert np.all(arterial_po2(pa) <= pa)
+
+
+def test_content_inversion_fallback_on_two_dimensional_input():
+    # elements Newton cannot settle (no PO2 has a negative content) take the bracketed path by their
+    # flat index, also when the input is 2-D (people x samples)
+    from altox.gas_exchange import _po2_for_content, _po2_for_content_safeguarded
+
+    content = np.array([[15.0, -0.1, -0.2], [18.0, -1.0, 10.0]])
+    upper = np.full(content.shape, 100.0)
+    p, s = _po2_for_content(content, 14.5, 1.0, upper)
+    ref = _po2_for_content_safeguarded(content.ravel(), np.full(6, 14.5), np.ones(6), upper.ravel())
+    np.testing.assert_allclose(p.ravel(), ref, atol=1e-6)
+    assert p.shape == s.shape == content.shape

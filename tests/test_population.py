@@ -46,11 +46,13 @@ def test_published_mean_lies_inside_the_range(row):
     assert lo <= mean <= hi
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "Honest residual: the calibrated spread does not transfer. Model SD 5.5 vs 9.5 on day 1 at "
-    "5,200 m (too narrow: acute illness is not modelled) and 5.1 vs 3.0 after a month (too wide: "
-    "acclimatization narrows the real spread). See docs/individual.md."))
-@pytest.mark.parametrize("row", VALIDATION, ids=[v[0] for v in VALIDATION])
+SPREAD_OPEN = {"spo2_botella_5200_d30": (
+    "Honest residual: the calibrated spread does not transfer to acclimatized climbers: model SD 4.9 "
+    "vs 3.0 a month at 5,200 m (too wide: acclimatization narrows the real spread). See docs/individual.md.")}
+
+
+@pytest.mark.parametrize("row", [pytest.param(v, id=v[0], marks=[pytest.mark.xfail(strict=True, reason=SPREAD_OPEN[v[0]])]
+                                              if v[0] in SPREAD_OPEN else []) for v in VALIDATION])
 def test_spread_against_rows_not_calibrated_on(row):
     # tolerance: the sampling error of an SD from about 20 people, +-32 % (95 %)
     _, alt, days, _mean, sd = row
@@ -58,22 +60,19 @@ def test_spread_against_rows_not_calibrated_on(row):
 
 
 # -- sleep ------------------------------------------------------------------------------------------------
-def test_sleep_drive_calibrated_on_tannheimer_2002():
-    # Tannheimer M, Thomas A, Gerngross H. Int J Sports Med 2002;23:329-335 (abstract): medians at
-    # Broad Peak base camp (4,850 m), rest 86.5 %, sleep 81 %: 5.5 points. Taken as day 10 there.
+def test_sleep_raises_paco2_a_little_at_sea_level_and_lowers_saturation_more_at_altitude():
+    # The sleep drive is calibrated on the normal sleeping PaCO2 rise at sea level (+5 mmHg; 3-7 is
+    # the usual range, common practice) and its hypoxic exponent on the first night at 4,559 m
+    # (Nussbaumer-Ochsner Y et al. Sleep 2012;35:419-423); the nights it was not fitted on are in
+    # tests/test_validation.py. Here the relation: the same sleep state costs little saturation at
+    # sea level and much more high up, where the curve is steep.
     ds = coefficients()["sleep"]["drive_scale"]["value"]
-    awake = assess(4850.0, atmosphere="mountain", days=10.0)["sao2_pct"]
-    asleep = assess(4850.0, atmosphere="mountain", days=10.0, drive_scale=ds)["sao2_pct"]
-    assert awake - asleep == pytest.approx(5.5, abs=0.1)
-
-
-def test_sleep_against_clarenbach_2012_not_calibrated_on():
-    # Clarenbach CF et al. PLoS One 2012;7:e41188 (abstract): mean nocturnal SpO2 73 % in the 10
-    # controls, nights 1-3 at 4,559 m after a rapid ascent. No SD in the abstract; the tolerance of
-    # 5 points is an assumed between-person SD of nocturnal SpO2 (from memory). Residual about +2.5.
-    ds = coefficients()["sleep"]["drive_scale"]["value"]
-    nights = assess(np.full(3, 4559.0), atmosphere="mountain", days=np.array([0.5, 1.5, 2.5]), drive_scale=ds)
-    assert float(nights["sao2_pct"].mean()) == pytest.approx(73.0, abs=5.0)
+    awake = assess(np.array([0.0, 4559.0]), atmosphere="mountain", days=1.0)
+    asleep = assess(np.array([0.0, 4559.0]), atmosphere="mountain", days=1.0, drive_scale=ds)
+    rise = asleep["arterial_pco2_mmhg"] - awake["arterial_pco2_mmhg"]
+    assert 3.0 <= rise[0] <= 7.0
+    drop = awake["sao2_pct"] - asleep["sao2_pct"]
+    assert drop[0] < 2.0 < 3.0 * drop[0] < drop[1]
 
 
 # -- properties --------------------------------------------------------------------------------------------

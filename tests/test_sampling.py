@@ -109,13 +109,16 @@ def test_flight_profile_changes_every_sample_so_every_sample_is_a_knot():
 
 
 def test_assess_along_flags_are_conservative():
+    # at the edge of the steady state (acute, inspired PO2 about 40 mmHg) the flag flips along the
+    # interval: a sample the knots call converged is converged in the reference, never the reverse
     t = np.arange(0.0, 6.0, 0.1)
-    f = np.linspace(0.0, 0.2, t.size)
-    r = assess_along(t, spacing_h=1.0, altitude_m=np.full(t.size, 8000.0), atmosphere="mountain",
-                     f_ventilatory=f, f_renal=f)
-    ref = assess(np.full(t.size, 8000.0), atmosphere="mountain", f_ventilatory=f, f_renal=f)
-    assert r["solver_converged"].dtype == bool and np.array_equal(r["solver_converged"], ref["solver_converged"])
-    np.testing.assert_allclose(r["sao2_pct"], ref["sao2_pct"], atol=0.01, rtol=0)
+    f = np.linspace(0.0, 0.05, t.size)
+    kw = dict(altitude_m=np.full(t.size, 8848.0), atmosphere="mountain", fio2=0.195, f_ventilatory=f, f_renal=f)
+    r = assess_along(t, spacing_h=1.0, **kw)
+    ref = assess(**kw)
+    assert r["solver_converged"].dtype == bool
+    assert ref["solver_converged"].any() and not ref["solver_converged"].all()
+    assert not (r["solver_converged"] & ~ref["solver_converged"]).any()
 
 
 def test_ensemble_on_knots_equals_every_sample(monkeypatch):

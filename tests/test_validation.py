@@ -20,20 +20,10 @@ CASES = GEN["all_cases"]()
 
 # Gaps not closed yet, each with its residual (model minus published) and tolerance.
 OPEN = {
-    "bg_grocott2009_8400m-PaO2": "residual +7.2 mmHg against tolerance 7: the model is optimistic here",
-    "bg_grocott2009_8400m_memory-SaO2": "residual +22.8 % against tolerance 19.1: the model is optimistic here",
-    "bg_oe3_summit_rest_grocott-PaCO2": "residual -4.0 mmHg against tolerance 3.25: the model is optimistic here",
-    "bg_oe3_summit_rest_grocott-pH": "residual +0.063  against tolerance 0.038: the model is optimistic here",
-    "bg_oe3_summit_rest_hal-SaO2": "residual +8.7 % against tolerance 4.3: the model is optimistic here",
-    "bg_4559_noAMS-AaDO2": "residual -4.4 mmHg against tolerance 4: the model is optimistic here",
-    "bg_4559_mildAMS-PaO2": "residual +5.1 mmHg against tolerance 4: the model is optimistic here",
-    "bg_4559_mildAMS-AaDO2": "residual -5.8 mmHg against tolerance 4: the model is optimistic here",
-    "bg_4559_modsevAMS-PaO2": "residual +8.8 mmHg against tolerance 4.5: the model is optimistic here",
-    "bg_4559_modsevAMS-AaDO2": "residual -9.0 mmHg against tolerance 4.8: the model is optimistic here",
-    "spo2_botella_7000-SpO2": "residual +9.7 % against tolerance 8.1: the model is optimistic here",
-    "spo2_tannheimer_7100-SpO2": "residual +14.6 % against tolerance 6.3: the model is optimistic here",
-    "spo2_nussbaumer_4559_night1-SpO2": "residual +8.5 % against tolerance 6.5: the model is optimistic here",
-    "spo2_nussbaumer_4559_night3-SpO2": "residual +7.0 % against tolerance 6.5: the model is optimistic here",
+    "spo2_tannheimer_7100-SpO2": (
+        "residual +9.3 points against tolerance 6.3 (optimistic): the model's acclimatized curve is too "
+        "flat between 5,200 and 7,100 m for climbers who have spent a night or two at a high camp "
+        "(Botella 7,000 m passes: +2.5 against 8.1). Not closed this session."),
 }
 
 
