@@ -110,9 +110,9 @@ def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
         lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
         when = f"{r['day']} {int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}"
         table.add_row(when, r["member"], f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
-                      (f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})" if e["low"] is not None
-                       else f"{e['central']:.0f} (-)")
-                      + ("" if r["expected_sao2_pct"].get("model_valid", True) else " ?"),
+                      ((f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})" if e["low"] is not None
+                        else f"{e['central']:.0f} (-)")
+                       if r["expected_sao2_pct"].get("model_valid", True) else "none ?"),   # no steady state
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
                       lls, ", ".join(FLAG_WORDS.get(f["code"], f["code"]) for f in r["flags"]) or "-")
     out = [table if rows else Text("No observations in this plan.")]
@@ -184,8 +184,10 @@ def range_cmd(
 
         plan, _result, ranges = _plan_and_ranges(file, members, seed)
         if json_out:
+            from .render import range_without_unsteady
+
             people = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
-                      for p in ranges["people"]]
+                      for p in map(range_without_unsteady, ranges["people"])]
             typer.echo(json.dumps(_jsonable({"plan": plan.name, "members": members, "seed": seed,
                                              "percentiles": ranges["percentiles"], "people": people,
                                              "notes": ranges["notes"], "caution": CAUTION}), indent=2))
@@ -202,9 +204,12 @@ def range_cmd(
                 table.add_column(col)
             for leg in p["legs"]:
                 q = leg["sao2_pct_percentiles"]
-                mark = "" if leg.get("model_valid", True) else " ?"
+                if leg.get("model_valid", True):
+                    central, spread = f"{leg['central_sao2_pct']:.0f} %", f"{q[0]:.0f}-{q[-1]:.0f} %"
+                else:   # no steady state: no saturation (see the notes)
+                    central, spread = "none ?", "-"
                 table.add_row(str(leg["leg"]), leg["label"], "asleep" if leg["sleeping"] else "awake",
-                              f"{leg['central_sao2_pct']:.0f} %{mark}", f"{q[0]:.0f}-{q[-1]:.0f} %{mark}")
+                              central, spread)
             console.print(table)
         for n in ranges["notes"]:
             console.print(n, style="dim", highlight=False)

@@ -209,12 +209,15 @@ def _physiology(kind: str, timelines: list) -> list:
     res = assess(atmosphere="isa" if kind == "flight" else "mountain", **inputs)
     sao2 = allk.interpolate(np.asarray(res["sao2_pct"], dtype=float))
     pio2 = allk.interpolate(np.asarray(res["inspired_po2_mmhg"], dtype=float))
-    ok = allk.interpolate_flag(res["solver_converged"], combine=np.logical_and)
-    clamped = allk.interpolate_flag(res["alveolar_po2_clamped"], combine=np.logical_or)
+    # a resting steady state (altox.validity: not in the time-of-useful-consciousness regime, above the
+    # inspired-PO2 floor, a solution of the ventilation model)
+    from .validity import NO_STEADY_STATE
+
+    ok = allk.interpolate_flag(res["validity_status"], combine=np.maximum) < NO_STEADY_STATE
     out, start = [], 0
     for tl in timelines:
         s = slice(start, start + len(tl))
-        out.append((sao2[s], pio2[s], ok[s] & ~clamped[s]))
+        out.append((sao2[s], pio2[s], ok[s]))
         start += len(tl)
     return out
 
@@ -344,27 +347,30 @@ def review_batch(sources: list, *, rules: tuple = (), oxygen: bool = False,
 
 def _result_line(src, plan, tl, rule_sets, phys, oxygen, decompression, rules) -> dict:
     from .evaluate import guidance_findings
-    from .ventilation import model_coefficients
+    from .validity import time_limited_text
 
     sao2, pio2, ok = phys
-    min_pio2 = float(model_coefficients()["validity"]["min_inspired_po2_mmhg"]["value"])
-    valid = bool(np.all(ok & (pio2 >= min_pio2)))
+    valid = bool(np.all(ok))
     dt = tl.duration_h
-    w = int(np.argmin(sao2))
+    # the worst moment: without a steady state (the lowest PIO2 there) before any saturation
+    w = int(np.argmin(sao2)) if valid else int(np.flatnonzero(~ok)[np.argmin(pio2[~ok])])
     leg = int(tl.leg[w])
     findings, cabin_hours = guidance_findings(plan, rule_sets)
     rows = _finding_rows(plan, findings, rule_sets)
     levels = sorted(plan.saturation_levels, reverse=True)
     line = {
         "plan": plan.name, "source": src.name, "kind": plan.kind, "status": "ok", "error": None,
-        "worst_sao2_pct": round(float(sao2[w]), 2), "worst_leg": leg + 1, "worst_leg_label": tl.leg_labels[leg],
+        "worst_sao2_pct": round(float(sao2[w]), 2) if valid else None,
+        "worst_time_limited": None if valid else time_limited_text(float(pio2[w])),
+        "worst_leg": leg + 1, "worst_leg_label": tl.leg_labels[leg],
         "worst_time_h": round(float(tl.time_h[w]), 4),
         "worst_altitude_m": round(float(tl.altitude_m[w]), 1),
         "worst_cabin_pressure_altitude_ft": round(float(tl.cabin_pressure_altitude_ft[w]), 0),
         "model_valid": valid,
-        "model_note": None if valid else ("OUTSIDE THE MODEL somewhere along this plan (inspired PO2 below the "
-                                          "lowest published measurement, or no resting steady state): the "
-                                          "numbers there are not a prediction."),
+        "model_note": None if valid else ("OUTSIDE THE MODEL somewhere along this plan (no resting steady state: "
+                                          "acute exposure at 20,000 ft or more, or an inspired PO2 below the "
+                                          "lowest published measurement): the numbers there are not a "
+                                          "prediction, and no saturation is given for the worst moment."),
         "total_hours": round(float(dt.sum()), 4),
         "hypoxic_dose_kmh": round(float(np.sum(np.maximum(tl.altitude_m - plan.dose_floor_m, 0.0) * dt) / 1000.0), 3),
         "hours_below_pct": {str(round(100 * lvl)): round(float(np.sum(dt[sao2 < 100 * lvl])), 4) for lvl in levels},
@@ -437,8 +443,8 @@ def review_plans(inputs: Iterable[str | os.PathLike], *, rules: tuple = (), oxyg
 
 # -- output -------------------------------------------------------------------------------------
 #: columns of the CSV form of a result line (nested fields flattened; rules as ``set/threshold`` lists)
-CSV_COLUMNS = ("source", "plan", "kind", "status", "error", "worst_sao2_pct", "worst_leg", "worst_leg_label",
-               "worst_time_h", "worst_altitude_m", "worst_cabin_pressure_altitude_ft", "model_valid",
+CSV_COLUMNS = ("source", "plan", "kind", "status", "error", "worst_sao2_pct", "worst_time_limited", "worst_leg",
+               "worst_leg_label", "worst_time_h", "worst_altitude_m", "worst_cabin_pressure_altitude_ft", "model_valid",
                "total_hours", "hypoxic_dose_kmh",
                *(f"hours_cabin_above_{t}_ft" for t in CABIN_THRESHOLDS_FT),
                "hours_below_pct", "rules_broken", "rules_broken_ids", "rules_broken_minutes",
@@ -539,8 +545,11 @@ class FleetSummary:
                 if h > 0:
                     self.cabin[t]["plans"] += 1
                     self.cabin[t]["hours"] += h
-        entry = (-line["worst_sao2_pct"], -self._order, {k: line[k] for k in (
-            "source", "plan", "worst_sao2_pct", "worst_leg", "worst_leg_label", "rules_broken", "model_valid")})
+        # a plan without a steady state ranks before any saturation (key +inf)
+        key = float("inf") if line["worst_sao2_pct"] is None else -line["worst_sao2_pct"]
+        entry = (key, -self._order, {k: line.get(k) for k in (
+            "source", "plan", "worst_sao2_pct", "worst_time_limited", "worst_leg", "worst_leg_label", "rules_broken",
+            "model_valid")})
         self._order += 1
         if len(self._worst) < self.worst_n:
             heapq.heappush(self._worst, entry)      # min-heap on -SaO2: the highest SaO2 kept leaves first
@@ -623,7 +632,11 @@ class FleetSummary:
             for e in d["worst_plans"]:
                 src = e["source"] if len(e["source"]) <= 64 else "..." + e["source"][-61:]
                 flag = "" if e["model_valid"] else " (outside the model)"
-                w(f"  {e['worst_sao2_pct']:>5.1f}% {e['worst_leg']:>4}  {src}{flag}\n")
+                if e["worst_sao2_pct"] is None:   # no steady state: the time-limited state, no saturation
+                    w(f"  {'none':>6} {e['worst_leg']:>4}  {src}{flag}\n" + _wrap(e["worst_time_limited"] or "", 70,
+                                                                                 " " * 14, " " * 14) + "\n")
+                else:
+                    w(f"  {e['worst_sao2_pct']:>5.1f}% {e['worst_leg']:>4}  {src}{flag}\n")
         w("\n" + _wrap(CAUTION, 78) + "\n")
         return out.getvalue()
 

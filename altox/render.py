@@ -535,7 +535,7 @@ JSON_SECTIONS = ("plan", "kind", "source", "caution_short", "rule_sets", "verdic
                  "sources", "caution")
 
 
-def _range_without_unsteady(person: dict) -> dict:
+def range_without_unsteady(person: dict) -> dict:
     """One person's expected range with no saturation where there is no steady state."""
     import numpy as np
 
@@ -578,7 +578,7 @@ def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
             value["people"] = [{k: v for k, v in p.items() if k not in ("central_sao2_pct", "sao2_pct_percentiles", "model_valid")}
                                for p in value["people"]]
         if key == "ranges":   # no saturation where there is no steady state
-            value = {**value, "people": [_range_without_unsteady(p) for p in value["people"]]}
+            value = {**value, "people": [range_without_unsteady(p) for p in value["people"]]}
         parts[key] = value
     order = [k for k in JSON_SECTIONS if k in parts] + [k for k in parts if k not in JSON_SECTIONS]
     data = public({k: parts[k] for k in order})

@@ -150,3 +150,25 @@ days:
     r = evaluate_plan(load_plan_text(text))
     assert r.legs[7]["validity_status"] == "validated"
     assert r.legs[8]["validity_status"] == "extrapolated"
+
+
+def test_fleet_review_gives_no_saturation_for_the_cabin_failure(tmp_path):
+    from altox import fleet
+
+    (tmp_path / "failure.yaml").write_text(FIXTURE.read_text())
+    (tmp_path / "jet.yaml").write_text((DEMOS / "jet-highcruise.yaml").read_text())
+    lines = {Path(x["source"]).name: x for x in fleet.review_plans([tmp_path], batch=4)}
+    bad, good = lines["failure.yaml"], lines["jet.yaml"]
+    assert bad["status"] == "ok" and not bad["model_valid"]
+    assert bad["worst_sao2_pct"] is None and bad["worst_leg"] == FAILURE_LEG
+    assert bad["worst_time_limited"] == "no steady state: time of useful consciousness 17-25 s"
+    assert good["worst_sao2_pct"] is not None and good["worst_time_limited"] is None
+    summary = fleet.FleetSummary(worst=2)
+    for line in lines.values():
+        summary.add(line)
+    d = summary.as_dict()
+    assert d["worst_plans"][0]["worst_sao2_pct"] is None          # ranked first, without a number
+    text = summary.text()
+    row = next(t for t in text.splitlines() if "failure.yaml" in t)
+    assert "none" in row and "%" not in row
+    assert "time of useful consciousness 17-25 s" in text
