@@ -90,7 +90,7 @@ def _pct(x):
     return "-" if x is None else f"{x:.0f} %"
 
 
-def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
+def readings_renderables(plan_name: str, rows: list, notes: list, feet: bool = False) -> list:
     """Rich renderables of a readings review (table, flags, actions, oximetry caveats, notes).
 
     The caller adds the general caution.  SpO2 readings are shown against the expected SpO2
@@ -100,24 +100,26 @@ def readings_renderables(plan_name: str, rows: list, notes: list) -> list:
     from rich.text import Text
 
     from .readings import FLAG_WORDS, oximetry_caveats
+    from .units import altitude_unit, shown_altitude
 
+    unit = altitude_unit(feet)
     table = Table(title=f"Readings: {plan_name}", title_justify="left", pad_edge=False)
-    for col in ("Day", "Member", "m", "SpO2", "Expected SpO2", "HR", "LLS", "Flags"):
+    for col in ("Day", "Member", unit, "SpO2", "Expected SpO2", "HR", "LLS", "Flags"):
         table.add_column(col, overflow="fold")
     for r in rows:
         e = r["expected_spo2_pct"]
         ll = r["lake_louise"]
         lls = "-" if ll is None else f"{ll['total']}" + ("" if ll["headache_known"] else " (total)")
         when = f"{r['day']} {int(r['time_h']):02d}:{round(r['time_h'] % 1 * 60):02d}"
-        table.add_row(when, r["member"], f"{r['altitude_m']:,.0f}", _pct(r["spo2_pct"]),
+        table.add_row(when, r["member"], shown_altitude(r["altitude_m"], feet), _pct(r["spo2_pct"]),
                       ((f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})" if e["low"] is not None
                         else f"{e['central']:.0f} (-)")
-                       if r["expected_sao2_pct"].get("model_valid", True) else "none ?"),   # no steady state
+                       if r["expected_sao2_pct"].get("model_valid", True) else "none (outside)"),   # no steady state
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
                       lls, ", ".join(FLAG_WORDS.get(f["code"], f["code"]) for f in r["flags"]) or "-")
     out = [table if rows else Text("No observations in this plan.")]
     if rows:
-        out.append(Text("Day and clock time; m: altitude; SpO2 and expected SpO2 in %, central value and "
+        out.append(Text(f"Day and clock time; {unit}: altitude; SpO2 and expected SpO2 in %, central value and "
                         "range; HR: heart rate /min; LLS: 2018 Lake Louise score; AMS: acute mountain sickness; "
                         "HAPE: high-altitude pulmonary oedema.", style="dim"))
     for r in rows:

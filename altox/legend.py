@@ -41,6 +41,8 @@ TERMS = (
     ("extrapolated", "flag: a steady state beyond the published data the model was checked against; "
                      "treat the numbers with more caution", "all"),
     ("+O2", "supplemental oxygen is planned on this leg", "all"),
+    ("O2 % / Air %", "expected SaO2 with the planned oxygen, and without it if it fails (on air, as every "
+                     "other figure of the output)", "all"),
     ("(!)", "the assumed device cannot hold the target (see the note beside it)", "all"),
     ("Risk", "risk category of a person under the guideline's risk table (low, moderate, high)",
      "expedition"),

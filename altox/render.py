@@ -260,7 +260,21 @@ def _compact_table(title=None, caption=None):
                  caption=caption, caption_justify="left")
 
 
-def verdict_renderables(result, verdict: dict) -> list:
+def oxygen_sentence(ox: dict) -> str:
+    """Oxygen on and off, in one sentence: what the planned oxygen achieves and what if it fails."""
+    legs = ", ".join(map(str, ox["legs"]))
+    text = f"Oxygen planned on leg{'s' if len(ox['legs']) > 1 else ''} {legs}: "
+    w = ox["sao2_with_oxygen_pct"]
+    if w:
+        text += (f"with it, expected SaO2 {w[0]:.0f} %" if round(w[0]) == round(w[1])
+                 else f"with it, expected SaO2 {w[0]:.0f}-{w[1]:.0f} %") + " (reference adult); "
+    if ox["sao2_if_it_fails_pct"] is not None:
+        text += (f"if it fails, on air, {ox['sao2_if_it_fails_pct']:.0f} % (the other figures of this output "
+                 "are on air).")
+    return text
+
+
+def verdict_renderables(result, verdict: dict, feet: bool = False) -> list:
     """The verdict first: the worst moment, each person's worst moment, what breaks which rule and
     what to do (the findings, numbered as the flags in the tables)."""
     from rich.text import Text
@@ -268,7 +282,10 @@ def verdict_renderables(result, verdict: dict) -> list:
     w = verdict["worst"]
     out = [Text("Verdict", style="bold")]
     state = "asleep" if w["asleep"] else "awake"
-    where = w["label"] if w["label"].lower().startswith("leg") else f"{w['label']} (leg {w['leg']})"
+    from .units import label_in_unit
+
+    label = label_in_unit(w["label"], feet)
+    where = label if label.lower().startswith("leg") else f"{label} (leg {w['leg']})"
     who = w.get("subject", "reference adult")
     if w.get("time_limited"):   # no steady state: never a saturation
         out.append(Text(f"Worst moment: {where}: {w['time_limited']}, {who} on air."))
@@ -298,6 +315,9 @@ def verdict_renderables(result, verdict: dict) -> list:
                 limited.setdefault((p["leg"], p["time_limited"]), []).append(p["name"])
         for (leg_no, text), names in limited.items():
             out.append(Text(f"SaO2 none for {', '.join(names)}: on leg {leg_no}, {text}."))
+    ox = verdict.get("oxygen")
+    if ox:
+        out.append(Text(oxygen_sentence(ox)))
     c = verdict["counts"]
     rules = ", ".join(c["rule_sets"]) or "none"
     if not verdict["findings"]:
@@ -326,7 +346,7 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
         rule_sets, _missing = applied_rule_sets(result)
     out = [Text(result.name, style="bold"), Text(f"{result.kind.capitalize()} plan: {result.source or 'given as data'}"),
            Text(SHORT_CAUTION)]
-    out.extend(verdict_renderables(result, plan_verdict(result, rule_sets)))
+    out.extend(verdict_renderables(result, plan_verdict(result, rule_sets), feet=feet))
     if getattr(result, "guidance_notes", None):
         out.append(Text("Guidance not applied or not checked\n"
                         + "\n".join(f"(!) {n}" for n in result.guidance_notes)))
@@ -373,11 +393,11 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
                 texts.setdefault(m["prophylaxis"], []).append(m["name"])
         for text, names in texts.items():
             out.append(Text(f"Prevention (guidance) for {', '.join(names)}: {text}"))
-    out.extend(people_extras_renderables(result))
+    out.extend(people_extras_renderables(result, feet=feet))
 
     # -- per-leg tables -------------------------------------------------------------------------
     out.extend(leg_renderables(result, feet=feet))
-    out.extend(oxygen_extras_renderables(result))
+    out.extend(oxygen_extras_renderables(result, feet=feet))
     from .legend import legend_lines
 
     out.append(Text("Terms\n" + "\n".join(f"- {line}" for line in legend_lines(result.kind))))
@@ -469,7 +489,7 @@ def extras_renderables(result) -> list:
     return people_extras_renderables(result) + oxygen_extras_renderables(result)
 
 
-def people_extras_renderables(result) -> list:
+def people_extras_renderables(result, feet: bool = False) -> list:
     """Expected SaO2 ranges, fitness to fly and readings, where the plan has them."""
     from rich.table import Table
     from rich.text import Text
@@ -499,11 +519,11 @@ def people_extras_renderables(result) -> list:
     if result.extras.get("readings") is not None:
         from .cli_people import readings_renderables
 
-        out.extend(readings_renderables(result.name, result.extras["readings"], []))
+        out.extend(readings_renderables(result.name, result.extras["readings"], [], feet=feet))
     return out
 
 
-def oxygen_extras_renderables(result) -> list:
+def oxygen_extras_renderables(result, feet: bool = False) -> list:
     """The oxygen and decompression reviews of a plan, where it has them."""
     out = []
     ox, dec = result.extras.get("oxygen"), result.extras.get("decompression")
@@ -511,7 +531,7 @@ def oxygen_extras_renderables(result) -> list:
         from .render_oxygen import decompression_review_renderables, oxygen_review_renderables
 
         if ox:
-            out.extend(oxygen_review_renderables(ox, with_caution=False))
+            out.extend(oxygen_review_renderables(ox, with_caution=False, feet=feet, legs=result.legs))
         if dec:
             out.extend(decompression_review_renderables(dec, with_caution=False))
     return out

@@ -16,9 +16,12 @@ _FT_PER_M = 1.0 / 0.3048
 
 
 def _table(title, columns, caption=None):
+    from rich import box
     from rich.table import Table
 
-    t = Table(title=title, title_justify="left", pad_edge=False, caption=caption, caption_justify="left")
+    # no side borders: the columns of 80 go to the values (a cell folds, never cut short)
+    t = Table(title=title, title_justify="left", pad_edge=False, caption=caption, caption_justify="left",
+              box=box.SIMPLE_HEAD, show_edge=False, collapse_padding=True)
     for name, right in columns:
         t.add_column(name, justify="right" if right else "left", overflow="fold")
     return t
@@ -32,6 +35,15 @@ def _dur(seconds):
     if seconds is None:
         return "-"
     return f"{seconds / 60:.1f} min" if seconds >= 120 else f"{seconds:.0f} s"
+
+
+def _on_air(leg, when) -> str:
+    """Expected SaO2 on the leg without the oxygen (asleep for night oxygen), or '-'."""
+    if not leg:
+        return "-"
+    value = leg.get("night_sao2_pct") if when == "sleep" and leg.get("night_sao2_pct") is not None \
+        else leg.get("sao2_pct")
+    return _num(value, "{:.0f}")
 
 
 def _kv(title, rows):
@@ -48,21 +60,30 @@ def _text(lines):
 
 
 # -- plan sections ------------------------------------------------------------------------------
-def oxygen_review_renderables(review: dict, *, with_caution: bool = True) -> list:
-    """Renderables of :func:`altox.oxygen_plan.oxygen_review`."""
+def oxygen_review_renderables(review: dict, *, with_caution: bool = True, feet: bool = False,
+                              legs=None) -> list:
+    """Renderables of :func:`altox.oxygen_plan.oxygen_review`; altitudes in feet with ``feet``
+    and always for a flight."""
+    from .units import altitude_unit, shown_altitude, shown_equivalent_altitude
+
     out = []
     flight = review["kind"] == "flight"
+    unit = altitude_unit(feet or flight)
     if review["planned"]:
-        t = _table("Oxygen planned", [("Leg", True), ("When", False), ("Cabin ft" if flight else "At m", True),
-                                       ("Device", False), ("L/min", True), ("FiO2", True), ("Eq. m", True),
-                                       ("SaO2 %", True), ("L each", True)],
-                   caption="L/min at reference conditions (1 atm, 15 degC); Eq. m = equivalent altitude; "
-                           "(!) = see the note below the table.")
+        t = _table("Oxygen planned", [("Leg", True), ("When", False), ("Cabin ft" if flight else f"At {unit}", True),
+                                       ("Device", False), ("L/min", True), ("FiO2", True), (f"Eq. {unit}", True),
+                                       ("O2 %", True), ("Air %", True), ("L each", True)],
+                   caption=f"L/min at reference conditions (1 atm, 15 degC); Eq. {unit} = equivalent altitude "
+                           "(hyperoxic: below sea level, more oxygen than sea-level air); O2 % = expected SaO2 "
+                           "with this oxygen; Air % = if it fails (on air, as in the physiology table); "
+                           "reference adult; (!) = see the note below the table.")
+        by_leg = {lg["leg"]: lg for lg in (legs or [])}
         for r in review["planned"]:
-            where = _num(r["cabin_ft"]) if flight else _num(r["altitude_m"])
+            where = _num(r["cabin_ft"]) if flight else shown_altitude(r["altitude_m"], feet)
             t.add_row(str(r["leg"]), r["when"], where, r["device"] + ("" if r["device_ok"] else " (!)"),
                       _num(r["flow_l_min"], "{:.1f}"), _num(r["fio2_achieved"], "{:.2f}"),
-                      _num(r["equivalent_altitude_m"]), _num(r["sao2_pct"], "{:.0f}"),
+                      shown_equivalent_altitude(r["equivalent_altitude_m"], feet or flight),
+                      _num(r["sao2_pct"], "{:.0f}"), _on_air(by_leg.get(r["leg"]), r["when"]),
                       _num(r["litres_per_person"]))
         out.append(t)
         for r in review["planned"]:

@@ -198,6 +198,7 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
     """The verdict first, as in the terminal: worst moment, each person's worst moment, the
     findings with what to do, then the exposure figures."""
     from .render import FLAG_BROKEN as XB
+    from .units import label_in_unit
     from .verdict import plan_verdict
 
     v = plan_verdict(result, rule_sets)
@@ -211,7 +212,11 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
         worst = (f"expected SaO2 <strong>{w['sao2_pct']:.0f} %</strong> {'asleep' if w['asleep'] else 'awake'}, "
                  f"{_e(w.get('subject', 'reference adult'))} at rest on air.")
     parts = ['<section id="summary">', "<h2>Verdict</h2>",
-             f"<p><strong>Worst moment:</strong> {_e(w['label'])} (leg {w['leg']}): {worst}</p>"]
+             f"<p><strong>Worst moment:</strong> {_e(label_in_unit(w['label'], feet))} (leg {w['leg']}): {worst}</p>"]
+    if v.get("oxygen"):
+        from .render import oxygen_sentence
+
+        parts.append(f"<p><strong>{_e(oxygen_sentence(v['oxygen']))}</strong></p>")
     if len(v["people"]) > 1:
         expedition = result.kind == "expedition"
         rows = []
@@ -219,7 +224,7 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
             rng = "&ndash;" if p["range_pct"] is None else f"{p['range_pct'][0]:.0f}-{p['range_pct'][1]:.0f}"
             state = "&ndash;" if p["asleep"] is None else ("asleep" if p["asleep"] else "awake")
             last = _e(p["risk_category"] or "-") if expedition else _e(p["role"])
-            rows.append(([_e(p["name"]), str(p["leg"]), _e(p["label"]),
+            rows.append(([_e(p["name"]), str(p["leg"]), _e(label_in_unit(p["label"], feet)),
                           _e(saturation_text(p["sao2_pct"], p.get("time_limited"), unit="")), rng, state, last], ""))
         parts.append(_table("Worst moment per person (expected SaO2; range: 5th to 95th percentile of simulated "
                             "people like them)", ["Person", "Leg", "When", "SaO2 %", "Range %", "State",
@@ -437,9 +442,10 @@ def _dur_s(seconds) -> str:
     return f"{seconds / 60:.1f} min" if seconds >= 120 else f"{seconds:.0f} s"
 
 
-def _oxygen(result, rule_sets, review) -> str:
+def _oxygen(result, rule_sets, review, feet: bool = False) -> str:
     """Oxygen planned (legs, guidance asking for it) and the oxygen review of the plan, where present."""
     from .timeline import OXYGEN_NAMES
+    from .units import altitude_unit, shown_altitude, shown_equivalent_altitude
 
     import numpy as np
 
@@ -470,15 +476,17 @@ def _oxygen(result, rule_sets, review) -> str:
     if planned:
         rows = []
         for r in planned:
-            where = _num(r["cabin_ft"]) if flight else _num(r["altitude_m"])
+            where = _num(r["cabin_ft"]) if flight else shown_altitude(r["altitude_m"], feet)
             device = _e(r["device"]) + ("" if r["device_ok"] else " <strong>(!)</strong>")
             rows.append(([str(r["leg"]), _e(r["when"]) + (f" ({_e(', '.join(r['who']))})" if r.get("who") else ""),
                           where, device, _num(r["flow_l_min"], "{:.1f}"), _num(r["fio2_achieved"], "{:.2f}"),
-                          _num(r["equivalent_altitude_m"]), _num(r["sao2_pct"], "{:.0f}"),
-                          _num(r["litres_per_person"])], ""))
+                          shown_equivalent_altitude(r["equivalent_altitude_m"], feet or flight),
+                          _num(r["sao2_pct"], "{:.0f}"), _num(r["litres_per_person"])], ""))
+        unit = altitude_unit(feet or flight)
         parts.append(_table("Oxygen planned: flow and FiO2 on the assumed device (L/min at 1 atm, 15 degC; "
-                            "Eq. m = equivalent altitude)",
-                            ["Leg", "Who", "Cabin ft" if flight else "At m", "Device", "L/min", "FiO2", "Eq. m",
+                            f"Eq. {unit} = equivalent altitude; hyperoxic: below sea level, more oxygen than "
+                            "sea-level air)",
+                            ["Leg", "Who", "Cabin ft" if flight else f"At {unit}", "Device", "L/min", "FiO2", f"Eq. {unit}",
                              "SaO2 %", "L each"], [True, False, True, False, True, True, True, True, True], rows))
         notes = [f"<li><strong>(!)</strong> leg {r['leg']}: {_e(n)}</li>" for r in planned for n in r["notes"]]
         if notes:
@@ -700,7 +708,7 @@ def build_report(result, *, plan=None, feet: bool = False, rule_sets=None, rule_
         _chart(result, feet, rule_sets),
         _people(result),
         _legs(result, feet),
-        _oxygen(result, rule_sets, ox_review),
+        _oxygen(result, rule_sets, ox_review, feet),
         _decompression(result, rule_sets, dec_review),
         _guidance(result, rule_sets, missing),
         _terms(result),

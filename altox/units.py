@@ -206,3 +206,35 @@ def parse_fraction(value, *, field: str = "fio2") -> float:
         raise UnitError(f"{field}: {value!r} is outside (0, 1]; expected {expected}.",
                         field=field, value=value, expected=expected)
     return number
+
+
+def altitude_unit(feet: bool) -> str:
+    """The unit altitudes are shown in: ``"ft"`` or ``"m"``."""
+    return "ft" if feet else "m"
+
+
+def shown_altitude(altitude_m, feet: bool, none: str = "-") -> str:
+    """An altitude as a number in the unit shown (``feet``: ft, else m), without the unit."""
+    if altitude_m is None:
+        return none
+    return f"{altitude_m / M_PER_FT if feet else altitude_m:,.0f}"
+
+
+def shown_equivalent_altitude(altitude_m, feet: bool, none: str = "-") -> str:
+    """An equivalent altitude as shown: below sea level it is 'hyperoxic' (more oxygen than
+    sea-level air), never a negative altitude."""
+    if altitude_m is None:
+        return none
+    if altitude_m < 0:
+        return "hyperoxic"
+    return shown_altitude(altitude_m, feet)
+
+
+_LABEL_ALTITUDE = re.compile(r"(?<![\d,.])(\d{1,3}(?:,\d{3})*|\d+) m\b")
+
+
+def label_in_unit(label: str, feet: bool) -> str:
+    """A leg label with its altitudes ('to 5,720 m') in the unit shown."""
+    if not feet:
+        return label
+    return _LABEL_ALTITUDE.sub(lambda m: f"{float(m.group(1).replace(',', '')) / M_PER_FT:,.0f} ft", label)

@@ -109,7 +109,17 @@ def plan_verdict(result, rule_sets=None) -> dict:
                          "status": STATUS_WORDS.get(f.status, f.status), "legs": list(f.legs),
                          "message": f.message, "what_to_do": what_to_do(f, th, result.kind),
                          "citation": f.citation})
+    oxygen = None
+    planned = (result.extras.get("oxygen") or {}).get("planned") or []
+    with_o2 = [r["sao2_pct"] for r in planned if r.get("sao2_pct") is not None]
+    if planned:
+        legs = sorted({r["leg"] for r in planned})
+        on_air = [lg for lg in result.legs if lg["leg"] in legs]
+        air = [min(v for v in (lg.get("sao2_pct"), lg.get("night_sao2_pct")) if v is not None)
+               for lg in on_air if lg.get("sao2_pct") is not None]
+        oxygen = {"legs": legs, "sao2_with_oxygen_pct": [min(with_o2), max(with_o2)] if with_o2 else None,
+                  "sao2_if_it_fails_pct": min(air) if air else None}
     broken = sum(f.status in BROKEN for f in result.findings)
     counts = {"not_met": broken, "met_with_oxygen": len(result.findings) - broken,
               "rule_sets": list(result.rule_sets)}
-    return {"worst": worst, "people": people, "findings": findings, "counts": counts}
+    return {"worst": worst, "people": people, "oxygen": oxygen, "findings": findings, "counts": counts}

@@ -12,6 +12,7 @@ each format.  The checks are about the text a medic or a flight physiologist is 
 
 from __future__ import annotations
 
+import io
 import json
 import re
 from importlib import resources
@@ -168,3 +169,37 @@ def test_one_legend_in_terminal_report_and_docs(demo_outputs, demo):
         for flag in leg["flags"]:
             assert re.fullmatch(r"(breaks|met) \d+", flag), flag
     assert "Night SaO2" not in out["terminal"] or "previous, higher night" in terminal
+
+
+def test_feet_converts_the_altitudes_and_flights_never_show_negative_altitudes(demo_outputs):
+    from rich.console import Console
+
+    from altox import render
+    from altox.units import label_in_unit, shown_equivalent_altitude
+
+    assert shown_equivalent_altitude(-1447.5, feet=True) == "hyperoxic"
+    assert shown_equivalent_altitude(3048.0, feet=True) == "10,000"
+    assert label_in_unit("Day 11 climb to 5,720 m", True) == "Day 11 climb to 18,766 ft"
+    result = demo_outputs["trek-teskavor"]["result"]
+    console = Console(width=80, file=io.StringIO(), record=True, color_system=None)
+    for part in render.plan_renderables(result, feet=True):
+        console.print(part)
+    text = console.export_text()
+    assert "Sleep ft" in text and "At ft" in text and "Eq. ft" in text and "18,766 ft" in text
+    assert "Sleep m" not in text and "At m " not in text and "Eq. m" not in text
+    for demo in ("medevac-transfer", "jet-highcruise", "piston-ridge-crossing"):
+        flight = demo_outputs[demo]["terminal"]
+        assert "Eq. m" not in flight and not re.search(r"-\d[\d,]* (m|ft)\b", flight)
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_oxygen_on_and_off_is_shown_where_planned(demo_outputs, demo):
+    out = demo_outputs[demo]
+    planned = (out["result"].extras.get("oxygen") or {}).get("planned")
+    head = _flat("\n".join(out["terminal"].splitlines()[:30]))
+    if planned:
+        assert "Oxygen planned on leg" in head and "if it fails, on air" in head
+        assert "O2 %" in out["terminal"] and "Air %" in out["terminal"]
+        assert "if it fails, on air" in out["html"]
+    else:
+        assert "Oxygen planned on leg" not in head
