@@ -237,7 +237,12 @@ def cylinders_cmd(
             h = parse_quantity(hours, "duration", field="--hours")
             if not 0 < h <= 24 * 365:
                 raise _unit_error(f"--hours: {hours!r} is outside (0, 1 year].")
-            n = int(_parse_number(people, "--people", 1, 10000))
+            count = _parse_number(people, "--people", 1, 10000)
+            if not float(count).is_integer():
+                from .errors import UnitError
+                raise UnitError(f"--people: {people!r} is not a whole number of people; expected a whole "
+                                "number from 1 to 10,000.", field="--people", value=people)
+            n = int(count)
             m = None
             if margin is not None:
                 text = str(margin).strip()

@@ -379,7 +379,7 @@ def _age(value) -> float:
     expected = "an age in years as a plain number from 0 to 110, e.g. 45"
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise _Problem(f"{value!r} is not an age; expected {expected}.", expected=expected)
-    if not (math.isfinite(value) and 0.0 < value <= 110.0):
+    if not (math.isfinite(value) and 0.0 <= value <= 110.0):
         raise _Problem(f"{value!r} is outside 0-110 years; expected {expected}.", expected=expected)
     return float(value)
 
@@ -661,6 +661,10 @@ class Day(_Model):
                            expected="'high' alongside 'hours_high'", value=_Problem._UNSET)
         if self.high_m is not None and self.hours_high_h is None:
             object.__setattr__(self, "hours_high_h", 1.0)
+        if self.oxygen is not None and self.oxygen.when == "climb" and self.high_m is None:
+            raise _Problem("oxygen 'when: climb' covers the hours at the day's high point, but the day has no "
+                           "'high'; expected a 'high' altitude, or 'when: sleep' or 'all'.",
+                           loc=("oxygen", "when"), expected="'high' alongside when: climb")
         if self.pressure_mmhg is not None:
             from .atmosphere import altitude_for_pressure
             try:
@@ -834,6 +838,17 @@ class Aircraft(_Model):
         description="Highest cabin (pressure) altitude the system holds; default 8,000 ft. "
         "[m of pressure altitude]")
 
+    @model_validator(mode="after")
+    def _no_pressurization_fields_unpressurized(self):
+        if not self.pressurized:
+            for key, attr in (("max_differential", "max_differential_mmhg"),
+                              ("max_cabin_altitude", "max_cabin_pressure_altitude_m")):
+                if attr in self.model_fields_set:
+                    raise _Problem(f"'{key}' has no effect on an unpressurized aircraft (its cabin is at the "
+                                   f"aircraft's altitude); expected no '{key}', or pressurized: true.", loc=(key,),
+                                   expected=f"no {key} when pressurized is false")
+        return self
+
     @property
     def max_differential_psi(self) -> Optional[float]:
         """``max_differential`` in psi."""
@@ -997,7 +1012,16 @@ class FlightPlan(_PlanBase):
             exc.loc = ("legs",) + exc.loc
             raise
         ac = self.aircraft
+        patients = [o.name for o in self.aboard if o.role == "patient"]
         for i, leg in enumerate(self.legs):
+            if leg.fio2 is not None and leg.oxygen == "none":
+                raise _Problem(f"'fio2' is given but nobody is on oxygen on this leg (oxygen: none), so it would "
+                               "have no effect; expected 'oxygen: crew', 'patient' or 'all' with it, or no "
+                               "'fio2'.", loc=("legs", i, "fio2"), expected="oxygen alongside fio2")
+            if leg.oxygen == "patient" and not patients:
+                raise _Problem("'oxygen: patient' but no one aboard has 'role: patient'; expected a patient in "
+                               "'aboard', or oxygen for 'crew' or 'all'.", loc=("legs", i, "oxygen"),
+                               expected="a patient aboard")
             if leg.cabin_pressure_altitude_m is not None and not ac.pressurized:
                 raise _Problem("'cabin' is stated on a leg of an unpressurized aircraft, whose cabin "
                                "is at the aircraft's altitude; expected no 'cabin' (or "
@@ -1017,6 +1041,11 @@ class FlightPlan(_PlanBase):
                     continue
                 top_ft = max(a0, a1) / M_PER_FT
                 cab_ft = leg.cabin_pressure_altitude_m / M_PER_FT
+                if cab_ft > top_ft + 1.0:
+                    raise _Problem(f"a cabin at {_fmt(cab_ft)} ft is above the aircraft's highest point on this "
+                                   f"leg; a cabin is never above the aircraft. Expected at most {_fmt(top_ft)} ft.",
+                                   loc=("legs", i, "cabin"),
+                                   expected=f"at most {_fmt(top_ft)} ft")
                 if cab_ft >= top_ft:
                     continue
                 dp = float(pressure_altitude_ft_to_mmhg(cab_ft) - pressure_altitude_ft_to_mmhg(top_ft))

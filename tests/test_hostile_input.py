@@ -87,6 +87,19 @@ PLAN_CASES = {
     "trailing-space-twin": (FLIGHT.replace("  - {name: Ann, role: crew}",
                                            "  - {name: Ann, role: crew}\n  - {name: \"Ann \", role: passenger}"),
                             "aboard[1].name", "reads the same"),
+    # silent acceptance found by the review: fields with no effect, values that contradict each other
+    "fio2-without-oxygen": (FLIGHT.replace("duration: 8 min}", "duration: 8 min, fio2: 30 %}"), "legs[0].fio2",
+                            "nobody is on oxygen"),
+    "oxygen-for-absent-patient": (FLIGHT.replace("duration: 8 min}", "duration: 8 min, oxygen: patient}"),
+                                  "legs[0].oxygen", "role: patient"),
+    "cabin-above-aircraft": (FLIGHT.replace("pressurized: false", "pressurized: true, max_differential: 8 psi")
+                             .replace('altitude: "9,500 ft"}', 'altitude: "9,500 ft", cabin: "12,000 ft"}'),
+                             "legs[1].cabin", "above the aircraft"),
+    "differential-unpressurized": (FLIGHT.replace("pressurized: false", "pressurized: false, max_differential: 8 psi"),
+                                   "aircraft.max_differential", "unpressurized"),
+    "climb-oxygen-without-high": (EXPEDITION.replace('{day: 1, sleep: "2,400 m"}',
+                                                     '{day: 1, sleep: "2,400 m", oxygen: {flow: 2 L/min, when: climb}}'),
+                                  "days[0].oxygen.when", "no 'high'"),
     "real-comma-split": (EXPEDITION.replace("sleep: 2900 m,", "sleep: 2,900 m,"), "days[1].sleep", "split"),
 }
 
@@ -202,3 +215,16 @@ def test_output_write_failure_names_option_and_os_error(tmp_path, monkeypatch, o
     first = assert_refused(res, where=option, words=(os.strerror(err),))
     assert str(out) in first
     assert not out.exists()
+
+
+def test_people_must_be_whole():
+    """Found: --people 2.9 was truncated to 2 in the cylinder count."""
+    args = ["cylinders", "--water", "10 L", "--fill", "200 bar", "--flow", "2 L/min", "--hours", "8 h"]
+    assert_refused(RUN.invoke(app, args + ["--people", "2.9"]), where="--people", words=("whole number",))
+    assert RUN.invoke(app, args + ["--people", "3"]).exit_code == 0
+
+
+def test_age_zero_is_accepted_as_documented(tmp_path):
+    """Found by the random-plan search: the docs say ages 0 to 110, the reader refused 0."""
+    res = RUN.invoke(app, ["check", _write(tmp_path, EXPEDITION.replace("age: 31", "age: 0"))])
+    assert res.exit_code == 0, res.output
