@@ -22,7 +22,7 @@ import copy
 import itertools
 
 from .errors import AltoxError, ProfileError
-from .repair import BROKEN, Repair, _put_after, _round_trip, _dump
+from .repair import BROKEN, Repair, _dump, _put_after, _q, _round_trip
 from .units import M_PER_FT
 
 #: most legs a flight repair may change (the search is exhaustive up to this)
@@ -91,23 +91,28 @@ def _apply(legs, i, option, *, altitudes_ft=None):
     climb that state their altitude are given the new one."""
     leg = legs[i]
     new_end = None
+    flow = getattr(leg, "fa", None) is not None and leg.fa.flow_style()
+
+    def ft(x):      # as the demo plans write it: double-quoted inside {...}
+        return _q(_ft(x), flow)
+
     if "oxygen" in option:
         if "oxygen" in leg or not hasattr(leg, "insert"):
             leg["oxygen"] = option["oxygen"]
         else:
             _put_after(leg, "oxygen", option["oxygen"], "altitude" if "altitude" in leg else "duration")
     if "altitude_ft" in option:
-        leg["altitude"] = new_end = _ft(option["altitude_ft"])
+        leg["altitude"] = new_end = ft(option["altitude_ft"])
     if option.get("cruise"):
         leg["phase"] = "cruise"
         if "altitude" in leg:
             del leg["altitude"]
-        new_end = _ft(altitudes_ft[i][0]) if altitudes_ft is not None else None
+        new_end = ft(altitudes_ft[i][0]) if altitudes_ft is not None else None
     if "cabin_ft" in option:
         if "cabin" in leg or not hasattr(leg, "insert"):
-            leg["cabin"] = _ft(option["cabin_ft"])
+            leg["cabin"] = ft(option["cabin_ft"])
         else:
-            _put_after(leg, "cabin", _ft(option["cabin_ft"]), "altitude" if "altitude" in leg else "duration")
+            _put_after(leg, "cabin", ft(option["cabin_ft"]), "altitude" if "altitude" in leg else "duration")
     if new_end is not None:
         for later in legs[i + 1:]:
             if later.get("phase") in ("climb", "descent"):
