@@ -18,7 +18,7 @@ The chart has two panels sharing the time axis:
   saturation levels.
 
 On both panels: legs where the plan does not meet a guidance rule are hatched ``///`` and
-tagged with the report's flag (``X1``...); rest days have a plain grey background; legs with
+tagged with the report's flag (``breaks 1``...); rest days have a plain grey background; legs with
 planned supplemental oxygen carry a cross-hatched strip along the foot of the altitude panel.
 Every series differs by line style, width, marker or hatch as well as colour, so the chart
 reads in greyscale.
@@ -210,6 +210,12 @@ def _steady_only(sao2_pct, validity_status):
     if validity_status is not None:
         sat[np.asarray(validity_status) == NO_STEADY_STATE] = np.nan
     return sat
+
+
+def _h_min(hours, _pos=None) -> str:
+    """Hours as h:min (flights): 1.5 -> '1:30'."""
+    minutes = int(round(hours * 60.0))
+    return f"{minutes // 60}:{minutes % 60:02d}"
 
 
 def _runs_of(mask):
@@ -414,7 +420,7 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
         if levels:
             handles.append(Line2D([], [], color=_LEVEL, lw=1.0, ls=(0, (1, 2)), label="plan's saturation levels"))
         ax_sat.set_ylabel("Expected SaO2 at rest, on air (%)")
-        ax_sat.yaxis.set_major_locator(MaxNLocator(nbins=6, integer=True))
+        ax_sat.yaxis.set_major_locator(MaxNLocator(nbins=6, integer=True, prune="lower"))  # clear of the time axis
 
         # -- legs: broken rules, rest days, oxygen -------------------------------------
         spans = _spans(result)
@@ -436,7 +442,7 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
                                hatch="xxxx", lw=0.8, zorder=6).set_gid(f"altox-oxygen-leg-{sp['leg']}")
         if any(sp["broken"] for sp in spans):
             handles.append(Patch(facecolor="none", edgecolor=_BROKEN, hatch="///", lw=0, alpha=0.65,
-                                 label="guidance not met (Xn, see the report)"))
+                                 label="guidance not met (breaks n: finding n of the verdict)"))
         if any(sp["rest"] for sp in spans):
             handles.append(Patch(facecolor=_REST, edgecolor="none", label="rest day"))
         if any(sp["oxygen"] for sp in spans):
@@ -446,7 +452,8 @@ def plan_figure(result, *, feet: bool = False, rule_sets=None, figsize=CHART_SIZ
         # -- axes ------------------------------------------------------------------------
         ax_sat.set_xlim(0.0, total)
         if flight:
-            ax_sat.set_xlabel("Time from the start of the first leg (h)")
+            ax_sat.set_xlabel("Time from the start of the first leg (h:min)")
+            ax_sat.xaxis.set_major_formatter(FuncFormatter(_h_min))
         else:
             ax_sat.set_xlabel("Time from the start of day 1 (days)")
             ax_sat.xaxis.set_major_locator(MultipleLocator(1 if total <= 31 else 7))

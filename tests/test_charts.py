@@ -57,7 +57,7 @@ def test_svg_parses_with_title_and_units(results, demo):
     assert r.name in text
     assert "(%)" in text and "SaO2" in text
     if r.kind == "flight":
-        assert "Pressure altitude (ft)" in text and "Pressure altitude (m)" in text and "(h)" in text
+        assert "Pressure altitude (ft)" in text and "Pressure altitude (m)" in text and "(h:min)" in text
     else:
         assert "Altitude (m)" in text and "Altitude (ft)" in text and "(days)" in text
     assert "never a clearance" in text

@@ -203,3 +203,41 @@ def test_oxygen_on_and_off_is_shown_where_planned(demo_outputs, demo):
         assert "if it fails, on air" in out["html"]
     else:
         assert "Oxygen planned on leg" not in head
+
+
+@pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
+def test_chart_labels_do_not_overlap(demo_outputs, demo):
+    """Every text of the chart (titles, threshold labels, flags, level marks, the peak, axis
+    labels, the legend's entries) has its own place: no two bounding boxes overlap."""
+    from altox.charts import plan_figure
+
+    fig = plan_figure(demo_outputs[demo]["result"])
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    ticks, drawn = set(), set()      # tick labels outside the view limits exist but are not drawn
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for tick in axis.get_major_ticks() + axis.get_minor_ticks():
+                ticks |= {id(tick.label1), id(tick.label2)}
+            for tick in axis._update_ticks():
+                drawn |= {id(tick.label1), id(tick.label2)}
+    texts = [t for t in fig.findobj(lambda a: type(a).__name__ in ("Text", "Annotation"))
+             if t.get_visible() and t.get_text().strip() and (id(t) not in ticks or id(t) in drawn)]
+    boxes = [(t.get_text(), t.get_window_extent(renderer)) for t in texts]
+    assert len(boxes) > 5
+    overlaps = []
+    for i, (ta, a) in enumerate(boxes):
+        for tb, b in boxes[i + 1:]:
+            w = min(a.x1, b.x1) - max(a.x0, b.x0)
+            h = min(a.y1, b.y1) - max(a.y0, b.y0)
+            if w > 0.5 and h > 0.5:        # more than half a pixel each way
+                overlaps.append((ta, tb))
+    assert not overlaps, overlaps
+
+
+def test_flight_chart_time_is_hours_and_minutes(demo_outputs):
+    from altox.charts import _h_min, plan_figure
+
+    assert _h_min(1.5) == "1:30" and _h_min(0.25) == "0:15" and _h_min(3.999) == "4:00"
+    fig = plan_figure(demo_outputs["piston-ridge-crossing"]["result"])
+    assert "h:min" in fig.axes[1].get_xlabel()
