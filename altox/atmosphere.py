@@ -219,6 +219,18 @@ def barometric_pressure(altitude_m, atmosphere: str = "isa"):
     return _shape_like(pb, altitude_m)
 
 
+_PRESSURE_SPAN: dict = {}
+
+
+def _pressure_span(atmosphere: str) -> tuple[float, float]:
+    """(lowest, highest) pressure of a model over its altitude range [mmHg], computed once."""
+    if atmosphere not in _PRESSURE_SPAN:
+        top, bottom = (ISA_MAX_M, ISA_MIN_M) if atmosphere == "isa" else (MOUNTAIN_MAX_M, MOUNTAIN_MIN_M)
+        _PRESSURE_SPAN[atmosphere] = (float(barometric_pressure(top, atmosphere)),
+                                      float(barometric_pressure(bottom, atmosphere)))
+    return _PRESSURE_SPAN[atmosphere]
+
+
 def altitude_for_pressure(pb_mmhg, atmosphere: str = "isa"):
     """Geometric altitude at which the model atmosphere has a given pressure.
 
@@ -243,13 +255,10 @@ def altitude_for_pressure(pb_mmhg, atmosphere: str = "isa"):
         A pressure outside the pressures the model spans over its altitude range.
     """
     _check_name(atmosphere)
+    lo, hi = _pressure_span(atmosphere)
     if atmosphere == "isa":
-        lo = float(barometric_pressure(ISA_MAX_M, "isa"))
-        hi = float(barometric_pressure(ISA_MIN_M, "isa"))
         p = _check_range(pb_mmhg, lo, hi, "pressure", "mmHg", "ICAO standard atmosphere")
         return _shape_like(isa_altitude_for_pressure_m(p * PA_PER_MMHG), pb_mmhg)
-    lo = float(barometric_pressure(MOUNTAIN_MAX_M, "mountain"))
-    hi = float(barometric_pressure(MOUNTAIN_MIN_M, "mountain"))
     p = _check_range(pb_mmhg, lo, hi, "pressure", "mmHg", "mountain")
     c = np.log(p / _TORR_TO_MMHG) - _WEST_A
     # 0.00149 h^2 + 0.1112 h + c = 0, positive root

@@ -222,30 +222,11 @@ def _physiology(kind: str, timelines: list) -> list:
     return out
 
 
-def _finding_rows(plan, findings, rule_sets) -> list[dict]:
-    rows, minutes = [], {}
-    if plan.kind == "flight" and findings:
-        from .rules.checker import hours_above
-        from .timeline import cabin_crossings
-
-        by_id = {rs.id: rs for rs in rule_sets}
-        bands = {}
-        for f in findings:
-            th = next((t for t in by_id[f.rule_set_id].thresholds if t.id == f.threshold_id), None)
-            if th is not None:
-                bands[(f.rule_set_id, f.threshold_id)] = (th.lower_ft, th.top_ft)
-        figures = [x for band in bands.values() for x in band if x is not None]
-        pieces = cabin_crossings(plan, figures)
-        for key, (lower, top) in bands.items():
-            h = hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, lower)
-            if top is not None:
-                h -= hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, top)
-            minutes[key] = round(60.0 * h, 2)
-    for f in findings:
-        rows.append({"rule_set": f.rule_set_id, "threshold": f.threshold_id, "citation": f.citation,
-                     "status": f.status, "broken": f.status in ("required-not-planned", "limit-exceeded"),
-                     "legs": [int(x) for x in f.legs], "minutes": minutes.get((f.rule_set_id, f.threshold_id))})
-    return rows
+def _finding_rows(findings) -> list[dict]:
+    return [{"rule_set": f.rule_set_id, "threshold": f.threshold_id, "citation": f.citation, "status": f.status,
+             "broken": f.status in ("required-not-planned", "limit-exceeded"), "legs": [int(x) for x in f.legs],
+             "minutes": None if f.band_hours is None else round(60.0 * f.band_hours, 2)}
+            for f in findings]
 
 
 def _oxygen_line(review: dict) -> dict:
@@ -356,7 +337,7 @@ def _result_line(src, plan, tl, rule_sets, phys, oxygen, decompression, rules) -
     w = int(np.argmin(sao2)) if valid else int(np.flatnonzero(~ok)[np.argmin(pio2[~ok])])
     leg = int(tl.leg[w])
     findings, cabin_hours = guidance_findings(plan, rule_sets)
-    rows = _finding_rows(plan, findings, rule_sets)
+    rows = _finding_rows(findings)
     levels = sorted(plan.saturation_levels, reverse=True)
     line = {
         "plan": plan.name, "source": src.name, "kind": plan.kind, "status": "ok", "error": None,

@@ -318,6 +318,9 @@ def verdict_renderables(result, verdict: dict, feet: bool = False) -> list:
     ox = verdict.get("oxygen")
     if ox:
         out.append(Text(oxygen_sentence(ox)))
+    for a in verdict.get("actions") or []:
+        out.append(Text(f"ACTION (readings) day {a['day']}, {a['member']}: {a['what']}; see Readings.",
+                        style="bold"))
     c = verdict["counts"]
     rules = ", ".join(c["rule_sets"]) or "none"
     if not verdict["findings"]:

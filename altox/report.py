@@ -213,6 +213,9 @@ def _summary(result, feet: bool, rule_sets=None) -> str:
                  f"{_e(w.get('subject', 'reference adult'))} at rest on air.")
     parts = ['<section id="summary">', "<h2>Verdict</h2>",
              f"<p><strong>Worst moment:</strong> {_e(label_in_unit(w['label'], feet))} (leg {w['leg']}): {worst}</p>"]
+    for a in v.get("actions") or []:
+        parts.append(f"<p><strong>ACTION (readings) day {a['day']}, {_e(a['member'])}:</strong> {_e(a['action'])} "
+                     f'<span class="source">{_s(a["source"])}.</span></p>')
     if v.get("oxygen"):
         from .render import oxygen_sentence
 

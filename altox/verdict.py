@@ -119,7 +119,12 @@ def plan_verdict(result, rule_sets=None) -> dict:
                for lg in on_air if lg.get("sao2_pct") is not None]
         oxygen = {"legs": legs, "sao2_with_oxygen_pct": [min(with_o2), max(with_o2)] if with_o2 else None,
                   "sao2_if_it_fails_pct": min(air) if air else None}
+    # readings that call for action (e.g. suspected pulmonary oedema) belong in the verdict
+    actions = [{"day": r["day"], "member": r["member"], "what": a["action"].split(":")[0].strip(),
+                "action": a["action"], "source": a["source"]}
+               for r in (result.extras.get("readings") or []) for a in r.get("actions", [])]
     broken = sum(f.status in BROKEN for f in result.findings)
     counts = {"not_met": broken, "met_with_oxygen": len(result.findings) - broken,
               "rule_sets": list(result.rule_sets)}
-    return {"worst": worst, "people": people, "oxygen": oxygen, "findings": findings, "counts": counts}
+    return {"worst": worst, "people": people, "oxygen": oxygen, "actions": actions, "findings": findings,
+            "counts": counts}

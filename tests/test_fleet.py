@@ -95,6 +95,8 @@ def test_rule_minutes_and_verdicts_follow_the_profile(lines):
     assert low["hours_cabin_above_ft"]["14000"] == 0.0 and low["rules_broken"] == 0
     broken = [r for r in high["rules"] if r["broken"]]
     assert broken and all(r["minutes"] > 0 for r in broken)
+    crew14 = next(r for r in high["rules"] if r["threshold"] == "crew-above-14000")   # no top to its band
+    assert crew14["minutes"] == pytest.approx(60 * high["hours_cabin_above_ft"]["14000"], abs=0.01)
     assert high["hours_cabin_above_ft"]["15000"] > 0
     assert high["worst_sao2_pct"] < low["worst_sao2_pct"]
     assert all(r["minutes"] is None for r in by_name["trek.yaml"]["rules"])

@@ -121,3 +121,21 @@ def test_assess_range_check_still_raises_with_measured_pressure():
         altox.assess(np.array([1000.0, 9500.0]), pb_mmhg=500.0, atmosphere="mountain")
     with pytest.raises(OutOfRangeError, match="outside"):
         altox.assess(np.array([1000.0, np.nan]), pb_mmhg=500.0, atmosphere="mountain")
+
+
+def test_cached_pressure_spans_and_rule_figures_equal_fresh_computation():
+    """The pressure span of each atmosphere and the rule thresholds' figures are computed once; same values."""
+    import altox.atmosphere as atm
+    from altox.rules import available_rule_sets, load_rule_set
+    from altox.rules.loader import _altitude_ft
+
+    for name, (top, bottom) in (("isa", (atm.ISA_MAX_M, atm.ISA_MIN_M)),
+                                ("mountain", (atm.MOUNTAIN_MAX_M, atm.MOUNTAIN_MIN_M))):
+        assert atm._pressure_span(name) == (float(atm.barometric_pressure(top, name)),
+                                           float(atm.barometric_pressure(bottom, name)))
+    for rule_id in available_rule_sets():
+        for th in load_rule_set(rule_id).thresholds:
+            if th.quantity == "cabin_pressure_altitude":
+                assert th.lower_ft == th.lower_ft == _altitude_ft(th.value, th.quantity, "value")
+                if th.band_top is not None:
+                    assert th.top_ft == _altitude_ft(th.band_top, th.quantity, "band_top")

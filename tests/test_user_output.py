@@ -103,6 +103,9 @@ def test_the_answer_comes_first(demo_outputs, demo):
         assert f"{k + 1}. " in head
         assert _flat(f.message) in head, f.message
     assert "To do:" in head or not any(f.status != "required-planned" for f in result.findings)
+    for r in result.extras.get("readings") or []:       # readings that call for action come first too
+        for a in r.get("actions", []):
+            assert f"ACTION (readings) day {r['day']}, {r['member']}" in head
     order = ["Verdict", "Exposure", "Where and when", "Expected physiology", "Assumptions", "Sources",
              "GUIDANCE ONLY"]
     found = [text.index(word) for word in order]

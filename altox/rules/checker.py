@@ -75,6 +75,7 @@ class Finding:
     status: str = ""
     message: str = ""
     basis: str = ""
+    band_hours: float | None = None   # aviation: hours with the cabin in the threshold's band
 
 
 # -- helpers ------------------------------------------------------------------------------
@@ -161,7 +162,7 @@ def figure_checked(basis: str) -> bool:
     return basis in CHECKED_BASES
 
 
-def _finding(rs: RuleSet, th: Threshold, legs, status: str, message: str) -> Finding:
+def _finding(rs: RuleSet, th: Threshold, legs, status: str, message: str, band_hours=None) -> Finding:
     if not figure_checked(th.basis):
         # a figure not checked against the published text is not shown: point to the section
         what = "days" if rs.kind == "expedition" else "legs"
@@ -170,7 +171,8 @@ def _finding(rs: RuleSet, th: Threshold, legs, status: str, message: str) -> Fin
                    "altox has not checked it against the published text: read the section itself.")
     return Finding(rule_set_id=rs.id, threshold_id=th.id, section=th.section,
                    citation=th.citation or rs.citation, legs=sorted({int(x) for x in legs}),
-                   applies_to=th.applies_to, status=status, message=message, basis=th.basis)
+                   applies_to=th.applies_to, status=status, message=message, basis=th.basis,
+                   band_hours=band_hours)
 
 
 def in_band(cabin_pressure_altitude_ft, lower_ft: float, top_ft: float | None = None) -> np.ndarray:
@@ -270,7 +272,7 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
                     if limit_h is not None else f"for {_fmt_min(band_h)}")
             msg = (f"Guidance from {cite} ({th.requirement}): the planned cabin altitude is above "
                    f"{th.value}{cond} {over}, {_on_legs(where_legs)}.")
-            findings.append(_finding(rs, th, where_legs, "limit-exceeded", msg))
+            findings.append(_finding(rs, th, where_legs, "limit-exceeded", msg, band_h))
             continue
         covered = np.isin(use, list(_COVERED_BY[th.applies_to]))
         short = hit & ~covered
@@ -281,11 +283,11 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
             short_legs = sorted(set(legs[short].tolist()))
             msg = (f"Guidance from {cite} ({th.requirement}): the plan has {span}, and its oxygen use "
                    f"does not cover {_who(th.applies_to)} there, {_on_legs(short_legs)}.")
-            findings.append(_finding(rs, th, short_legs, "required-not-planned", msg))
+            findings.append(_finding(rs, th, short_legs, "required-not-planned", msg, band_h))
         else:
             msg = (f"Guidance from {cite} ({th.requirement}): the plan has {span}, and its oxygen use "
                    f"covers {_who(th.applies_to)} there, {_on_legs(where_legs)}.")
-            findings.append(_finding(rs, th, where_legs, "required-planned", msg))
+            findings.append(_finding(rs, th, where_legs, "required-planned", msg, band_h))
     return findings
 
 

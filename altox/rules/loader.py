@@ -22,6 +22,7 @@ import difflib
 import functools
 import math
 import re
+from functools import cached_property
 from importlib import resources
 from pathlib import Path
 from typing import Literal, Optional
@@ -203,12 +204,12 @@ class Threshold(_Strict):
         return self
 
     # -- values in the checker's units ---------------------------------------------------
-    @property
+    @cached_property   # parsed once per rule set (the checker reads it for every plan)
     def lower_ft(self) -> float:
         """Aviation: the cabin pressure altitude [ft] above which the threshold applies."""
         return _altitude_ft(self.value, self.quantity, "value")
 
-    @property
+    @cached_property   # parsed once per rule set (the checker reads it for every plan)
     def top_ft(self) -> float | None:
         """Aviation: the top of the band [ft], 'up to and including'; None for no top."""
         return None if self.band_top is None else _altitude_ft(self.band_top, self.quantity, "band_top")
@@ -218,7 +219,7 @@ class Threshold(_Strict):
         """The supply each occupant needs [h] ('supply' checks), or None."""
         return None if self.supply is None else parse_quantity(self.supply, "duration")
 
-    @property
+    @cached_property   # parsed once per rule set (the checker reads it for every plan)
     def duration_h(self) -> float | None:
         """The 'more than' duration [h], or None."""
         if self.duration is None:
