@@ -263,7 +263,7 @@ def _po2_for_content_safeguarded(content_ml_dl, hb_g_dl, factor, upper_mmhg):
 @lru_cache(maxsize=1)
 def default_dlo2_ml_min_mmhg() -> float:
     """The lung's effective resting diffusing capacity for O2 (``altox/data/models.yaml``). [mL/min/mmHg]"""
-    from .ventilation import model_coefficients
+    from .coefficients import model_coefficients
 
     return float(model_coefficients()["blood"]["dlo2_ml_min_mmhg"]["value"])
 

@@ -231,7 +231,7 @@ def person_kwargs(person, *, sleeping=False) -> dict:
     >>> person_kwargs({"age_y": 63.0, "acetazolamide": True})["hco3_offset_mmol_l"]
     -4.0
     """
-    from .ventilation import model_coefficients
+    from .coefficients import model_coefficients
 
     hb = _get(person, "hemoglobin_g_dl", default=model_coefficients()["blood"]["hemoglobin_g_dl"]["value"])
     out = {

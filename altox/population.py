@@ -115,7 +115,7 @@ def draw_factors(person, z):
     """
     from .blood import STANDARD_P50_MMHG
     from .gas_exchange import shunt_fraction_for_age
-    from .ventilation import model_coefficients
+    from .coefficients import model_coefficients
 
     pop = coefficients()["population"]
     sd_g = pop["hypoxic_gain_log_sd"]["value"]

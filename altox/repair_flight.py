@@ -22,7 +22,7 @@ import copy
 import itertools
 
 from .errors import AltoxError, ProfileError
-from .repair import BROKEN, Repair, _dump, _put_after, _q, _round_trip
+from .repair_common import BROKEN, Repair, _dump, _put_after, _q, _round_trip
 from .units import M_PER_FT
 
 #: most legs a flight repair may change (the search is exhaustive up to this)

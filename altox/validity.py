@@ -69,7 +69,8 @@ def limits() -> dict:
         the two altitude limits).
     """
     from .atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
-    from .ventilation import acclimatization_fractions, model_coefficients
+    from .coefficients import model_coefficients
+    from .ventilation import acclimatization_fractions
     from .yamlload import load_data_file
 
     data = load_data_file("validity")

@@ -38,6 +38,7 @@ from functools import lru_cache
 import numpy as np
 
 from . import blood
+from .coefficients import model_coefficients  # noqa: F401  (re-exported)
 from .gas_exchange import AIR_FIO2, alveolar_gas_factor, alveolar_po2
 from .atmosphere import SEA_LEVEL_MMHG
 
@@ -57,14 +58,6 @@ class VentilationParameters:
     ventilatory_time_constant_days: float
     renal_time_constant_days: float
     deacclimatization_time_constant_days: float
-
-
-@lru_cache(maxsize=1)
-def model_coefficients() -> dict:
-    """The model coefficient table, loaded once from ``altox/data/models.yaml``."""
-    from .yamlload import load_data_file
-
-    return load_data_file("models")
 
 
 @lru_cache(maxsize=1)
