@@ -48,8 +48,9 @@ def _ranges(plan, result, members, seed):
         close()
 
 
-def _plan_and_ranges(file, members, seed):
-    """Load and evaluate a plan, then its expected range (with the progress bar)."""
+def _plan_and_ranges(file, members, seed, kind=None):
+    """Load and evaluate a plan, then its expected range (with the progress bar); ``kind`` refuses
+    a plan of the other kind before any work."""
     from .evaluate import evaluate_plan
     from .profile import load_plan
 
@@ -58,6 +59,12 @@ def _plan_and_ranges(file, members, seed):
     _check_members(members)
     check_seed(seed)
     plan = load_plan(file)
+    if kind is not None and plan.kind != kind:
+        from .errors import ProfileError
+
+        raise ProfileError(f"{file}: kind: this command reviews {kind} plans; this plan is a {plan.kind} "
+                           f"(expected kind: {kind}).", path=file, field="kind", value=plan.kind,
+                           expected=f"kind: {kind}")
     from .population import check_ensemble_size
 
     check_ensemble_size(plan, members)
@@ -152,7 +159,7 @@ def readings_cmd(
         from .readings import CAUTION, review
         from .render import CAUTION as GENERAL
 
-        plan, result, ranges = _plan_and_ranges(file, members, seed)
+        plan, result, ranges = _plan_and_ranges(file, members, seed, kind="expedition")
         rows = review(plan, result, ranges)
         if json_out:
             typer.echo(json.dumps(_jsonable({"plan": plan.name, "source": file, "members": members, "seed": seed,

@@ -228,3 +228,9 @@ def test_age_zero_is_accepted_as_documented(tmp_path):
     """Found by the random-plan search: the docs say ages 0 to 110, the reader refused 0."""
     res = RUN.invoke(app, ["check", _write(tmp_path, EXPEDITION.replace("age: 31", "age: 0"))])
     assert res.exit_code == 0, res.output
+
+
+def test_readings_of_a_flight_refused_up_front_with_the_file(tmp_path):
+    """Found: 'readings are reviewed for expedition plans only' came after the ensemble, without the file."""
+    path = _write(tmp_path, FLIGHT)
+    assert_refused(RUN.invoke(app, ["readings", path, "--members", "10"]), where=re.escape(path) + ": kind:")
