@@ -121,7 +121,8 @@ def readings_renderables(plan_name: str, rows: list, notes: list, feet: bool = F
         table.add_row(when, r["member"], shown_altitude(r["altitude_m"], feet), _pct(r["spo2_pct"]),
                       ((f"{e['central']:.0f} ({e['low']:.0f}-{e['high']:.0f})" if e["low"] is not None
                         else f"{e['central']:.0f} (-)")
-                       if r["expected_sao2_pct"].get("model_valid", True) else "none (outside)"),   # no steady state
+                       if r["expected_sao2_pct"].get("model_valid", True) else "none (outside)")   # no steady state
+                      + (" (extrapolated)" if r.get("extrapolated") else ""),
                       "-" if r["heart_rate_per_min"] is None else f"{r['heart_rate_per_min']:.0f}",
                       lls, ", ".join(FLAG_WORDS.get(f["code"], f["code"]) for f in r["flags"]) or "-")
     out = [table if rows else Text("No observations in this plan.")]
@@ -129,6 +130,11 @@ def readings_renderables(plan_name: str, rows: list, notes: list, feet: bool = F
         out.append(Text(f"Day and clock time; {unit}: altitude; SpO2 and expected SpO2 in %, central value and "
                         "range; HR: heart rate /min; LLS: 2018 Lake Louise score; AMS: acute mountain sickness; "
                         "HAPE: high-altitude pulmonary oedema.", style="dim"))
+    seen = set()
+    for r in rows:
+        if r.get("extrapolated") and r["member"] not in seen:
+            seen.add(r["member"])
+            out.append(Text(f"{r['member']}: {r['extrapolated']}."))
     for r in rows:
         for a in r.get("actions", []):
             out.append(Text(f"ACTION day {r['day']} {r['member']}: {a['action']} [{a['source']}]", style="bold"))

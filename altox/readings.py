@@ -330,6 +330,11 @@ def review(plan, result=None, ranges=None) -> list[dict]:
         ranges = expected_range(plan, result)
     people = {p["name"]: p for p in ranges["people"]}
     history = {m.name: set(m.history) for m in plan.party}
+    from .validity import limits
+
+    lim = limits()
+    outside_age = {m.name: m.age_y for m in plan.party if m.age_y is not None
+                   and not lim["adult_min_age_y"] <= m.age_y <= lim["adult_max_age_y"]}
     cfg = coefficients()["readings"]
     lls_cfg = cfg["lake_louise_2018"]
     rec = cfg["recommendation"]
@@ -396,6 +401,10 @@ def review(plan, result=None, ranges=None) -> list[dict]:
             "ascent_continues": ascent, "recent_gain_m": max(gain, 0.0), "flags": [], "actions": [],
             "note": obs.note,
         }
+        if obs.member in outside_age:
+            rec_out["extrapolated"] = (f"age {outside_age[obs.member]:g} years is outside the adults "
+                                       f"({lim['adult_min_age_y']:g} to {lim['adult_max_age_y']:g} years) the "
+                                       "model is checked against: the expected range is extrapolated")
         flags, actions = rec_out["flags"], rec_out["actions"]
         state = "asleep" if rec_out["sleeping"] else "awake"
         below_range = spo2 is not None and low is not None and spo2 < spo2_range["low"]

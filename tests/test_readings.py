@@ -273,3 +273,20 @@ def test_members_0_keeps_readings_and_says_so(tmp_path):
     ben = next(r for r in data["readings"] if r["member"] == "Ben")
     assert ben["hape"]["suspected"] and ben["expected_spo2_pct"]["low"] is None
     assert any("members 0" in n for n in data["notes"])
+
+
+def test_a_child_reading_is_marked_extrapolated():
+    # the model is checked against adults (altox/data/validity.yaml); a child's range is extrapolated
+    plan = load_plan_text(_MEDIC.replace("{name: Cy, age: 40}", "{name: Cy, age: 8}"))
+    rows = readings.review(plan, None, population.expected_range(plan, n=50))
+    cy = next(r for r in rows if r["member"] == "Cy")
+    assert "extrapolated" in cy["extrapolated"] and "age 8" in cy["extrapolated"]
+    assert all("extrapolated" not in r for r in rows if r["member"] != "Cy")
+    text = "\n".join(str(x) for x in readings_text(plan.name, rows))
+    assert "Cy: age 8" in text
+
+
+def readings_text(name, rows):
+    from altox.cli_people import readings_renderables
+
+    return [p for p in readings_renderables(name, rows, []) if not hasattr(p, "columns")]
