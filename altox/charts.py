@@ -132,6 +132,8 @@ def threshold_lines(result, rule_sets) -> list[dict]:
         if (rs.kind == "aviation") != (result.kind == "flight"):
             continue
         for th in rs.thresholds:
+            if th.check in ("mask", "supply"):   # flight-level rules: the aircraft's altitude, not the cabin's
+                continue
             if rs.kind == "aviation":
                 ft = float(th.lower_ft)
                 m = ft / _FT_PER_M

@@ -105,6 +105,27 @@ def point(
             raise UnitError("give --altitude (e.g. 4500m) or --pressure (e.g. 430mmHg), or both.")
         alt_m = parse_quantity(altitude, "length", field="--altitude") if altitude is not None else None
         pb = parse_quantity(pressure, "pressure", field="--pressure") if pressure is not None else None
+        from .units import is_flight_level
+
+        reading = None
+        if altitude is not None and is_flight_level(altitude):
+            # a flight level is a pressure altitude: its pressure in the standard atmosphere
+            from .atmosphere import altitude_for_pressure, pressure_altitude_ft_to_mmhg
+            from .units import M_PER_FT
+
+            if atmosphere != "isa":
+                from .errors import UnitError
+                raise UnitError(f"--altitude: {altitude!r} is a flight level, a pressure altitude in the "
+                                "standard atmosphere; expected --atmosphere isa (or an altitude in m or ft).")
+            fl_pb = float(pressure_altitude_ft_to_mmhg(alt_m / M_PER_FT))
+            reading = (f"Altitude: {altitude.strip().upper()} read as a pressure altitude "
+                       f"({alt_m / M_PER_FT:,.0f} ft in the ICAO standard atmosphere, {fl_pb:.2f} mmHg).")
+            alt_m = float(altitude_for_pressure(fl_pb, "isa"))
+            if pb is None:
+                pb = fl_pb
+        elif altitude is not None:
+            reading = (f"Altitude: {altitude.strip()} read as a geometric altitude in the "
+                       f"{'ICAO standard' if atmosphere == 'isa' else 'mountain model'} atmosphere.")
         fio2_v = parse_fraction(fio2, field="--fio2")
         opts = dict(
             days=_parse_number(days, "--days", 0, 3650, "days"),
@@ -138,6 +159,8 @@ def point(
                          inspired_po2_mmhg=result["inspired_po2_mmhg"], age_y=opts["age_y"])
         if json_out:
             data = {k: v for k, v in result.items() if k not in ("validity_status", "validity_reasons")}
+            if reading:
+                data["altitude_reading"] = reading
             data.update(validity_status=state["validity_status"],
                         outside_validated_range=state["outside_validated_range"],
                         validity_notes=state["validity_notes"], time_limited=state["time_limited"])
@@ -148,7 +171,7 @@ def point(
         exposure = ("acute exposure (first hours)" if opts["days"] == 0
                     else f"{opts['days']:g} days at this altitude")
         model = {"isa": " (ICAO standard, Doc 7488)", "mountain": " (West 1996 model for mountain sites)"}
-        assumptions = [
+        assumptions = ([reading] if reading else []) + [
             f"Atmosphere: {result['atmosphere']}{model.get(result['atmosphere'], '')}",
             f"Resting, awake, {exposure}; age {opts['age_y']:g}; respiratory exchange ratio {opts['rq']:g}.",
             "PaCO2 taken equal to PACO2; body temperature 37 degC.",
@@ -307,15 +330,20 @@ class _write_errors:
 
 @app.command()
 def check(files: list[str] = typer.Argument(..., help="Plan files (YAML).")):
-    """Validate plan files without computing: format, units, order of days and legs."""
+    """Validate plan files without computing: format, units, order of days and legs, rule sets."""
     failed = []
     for path in files:
         def body(path=path):
+            from .evaluate import select_rule_sets
             from .profile import load_plan
 
             p = load_plan(path)
+            applied, notes = select_rule_sets(p)
             n = len(p.days) if p.kind == "expedition" else len(p.legs)
-            typer.echo(f"ok: {path} ({p.kind}, {n} {'days' if p.kind == 'expedition' else 'legs'})")
+            typer.echo(f"ok: {path} ({p.kind}, {n} {'days' if p.kind == 'expedition' else 'legs'}; "
+                       f"guidance: {', '.join(rs.id for rs in applied)})")
+            for note in notes:
+                typer.echo(f"  (!) {note}")
         try:
             run_guarded(body)
         except typer.Exit:

@@ -201,3 +201,102 @@ def _geometric_of_pressure_altitude_m(pressure_altitude_m: float) -> float:
     from .units import M_PER_FT
 
     return float(altitude_for_pressure(pressure_altitude_ft_to_mmhg(pressure_altitude_m / M_PER_FT), "isa"))
+
+
+def certification_flow() -> dict:
+    """The minimum-flow figures of the certification standard (``certification_flow.yaml``)."""
+    from .oxygen import load_data
+
+    return load_data("certification_flow")
+
+
+def certification_descent_oxygen_l(from_ft, to_ft, rate_ft_min, group: str, *, reaction_min=None,
+                                   step_ft: float = 250.0) -> dict:
+    """Oxygen for one occupant over an emergency descent, at the certification standard's minimum flow.
+
+    The standard (14 CFR 25.1443 / CS 25.1443; figures in ``certification_flow.yaml``) sets,
+    by cabin pressure altitude, the mean tracheal PO2 (or the oxygen fraction) that the
+    equipment must hold at a stated minute ventilation.  With the tracheal PO2
+    ``PtO2 = FiO2 (PB - 47)``, the fraction of the inspired gas that must come from the supply
+    is ``x = (FiO2 - 0.2095) / (1 - 0.2095)`` (the rest is cabin air), and the supply's flow is
+    ``x VE`` (BTPS at the cabin pressure), counted in reference litres.  The occupant breathes
+    it for ``reaction_min`` at ``from_ft`` and then along a straight descent at ``rate_ft_min``
+    to ``to_ft`` (passengers: not below the standard's lowest band, 10,000 ft), integrated on
+    steps of ``step_ft`` (midpoint rule).
+
+    Parameters
+    ----------
+    from_ft, to_ft : float
+        Decompression (cabin = aircraft) and oxygen-free pressure altitudes. [ft]
+    rate_ft_min : float
+        Emergency descent rate. [ft/min]
+    group : {'crew', 'crew-continuous', 'passengers'}
+        Flight crew on demand equipment (25.1443(b)), on continuous flow (25.1443(a)), or
+        passengers and cabin crew (25.1443(c)).
+
+    Returns
+    -------
+    dict
+        ``oxygen_l`` (reference litres), ``minutes`` (on oxygen), ``beyond_standard`` (the
+        descent starts above the standard's top altitude, or 100 % oxygen cannot reach its
+        figure somewhere: pressure breathing or a faster descent is needed), ``standard``,
+        ``section``, ``group``.
+
+    References
+    ----------
+    14 CFR 25.1443; EASA CS 25.1443 (ED Decision 2003/2/RM).
+    """
+    from .atmosphere import pressure_altitude_ft_to_mmhg
+    from .oxygen import btps_to_reference_factor
+    from .atmosphere import SEA_LEVEL_MMHG
+
+    data = certification_flow()
+    key = {"crew": "crew_demand", "crew-continuous": "crew_continuous", "passengers": "passengers"}.get(group)
+    if key is None:
+        raise OutOfRangeError(f"group {group!r} is not one of crew, crew-continuous, passengers", field="group",
+                              expected="crew, crew-continuous or passengers")
+    spec = data[key]
+    rate = float(rate_ft_min)
+    if not np.isfinite(rate) or rate <= 0:
+        raise OutOfRangeError("the descent rate must be a positive number of ft/min", field="rate",
+                              expected="> 0 ft/min")
+    conv = descent_convention()
+    reaction = float(conv["reaction_min"]) if reaction_min is None else float(reaction_min)
+    top = float(from_ft)
+    bottom = max(float(to_ft), float(spec.get("above_ft", -np.inf)))
+    top_ft = float(data["top_ft"])
+    result = {"oxygen_l": 0.0, "minutes": 0.0, "beyond_standard": top > top_ft, "standard": data["standard"],
+              "section": spec["section"], "group": group, "to_ft": bottom}
+    if top <= bottom:
+        return result
+    n = max(1, int(np.ceil((top - bottom) / step_ft)))
+    edges = np.linspace(top, bottom, n + 1)
+    alts = np.concatenate([[top], 0.5 * (edges[:-1] + edges[1:])])
+    minutes = np.concatenate([[reaction], np.abs(np.diff(edges)) / rate])
+    pb = np.asarray(pressure_altitude_ft_to_mmhg(alts), dtype=float)
+    dry = pb - 47.0
+    fio2 = np.full(alts.shape, np.nan)
+    ve = np.full(alts.shape, float(spec.get("ventilation_btps_l_min", np.nan)))
+    lower = -np.inf
+    for band in spec["bands"]:
+        inside = (alts > lower) & (alts <= float(band["up_to_ft"]))
+        if "oxygen_fraction" in band:
+            fio2[inside] = float(band["oxygen_fraction"])
+        else:
+            fio2[inside] = float(band["tracheal_po2_mmhg"]) / dry[inside]
+        if "ventilation_btps_l_min" in band:
+            ve[inside] = float(band["ventilation_btps_l_min"])
+        lower = float(band["up_to_ft"])
+    above = np.isnan(fio2)                       # above the standard's top altitude
+    ve[above] = ve[~above][0] if (~above).any() else ve[above]
+    if np.isnan(ve).any():                       # passengers above the top: the highest band's ventilation
+        ve[np.isnan(ve)] = float(spec["bands"][-1].get("ventilation_btps_l_min", 30.0))
+    unreachable = above | (fio2 > 1.0)
+    fio2 = np.where(unreachable, 1.0, fio2)
+    x = np.clip((fio2 - 0.2095) / (1.0 - 0.2095), 0.0, 1.0)
+    # BTPS litres at the cabin pressure -> reference litres: dry share and pressure of the
+    # breath relative to sea-level BTPS, then btps_to_reference_factor
+    ref_l_min = x * ve * dry / (SEA_LEVEL_MMHG - 47.0) * btps_to_reference_factor()
+    result.update({"oxygen_l": float(np.sum(ref_l_min * minutes)), "minutes": float(np.sum(minutes)),
+                   "beyond_standard": bool(unreachable.any())})
+    return result

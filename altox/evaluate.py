@@ -52,6 +52,7 @@ class PlanResult:
     findings: list                # rules.checker.Finding
     summary: dict
     notes: list[str] = field(default_factory=list)
+    guidance_notes: list[str] = field(default_factory=list)  # rule sets not applied; what was not checked
     extras: dict = field(default_factory=dict)   # expected ranges, readings, oxygen and decompression reviews
 
 
@@ -72,14 +73,74 @@ def _people(plan) -> list[Person]:
     return out
 
 
-def _rule_sets(plan):
+#: the kind of rule set that fits each kind of plan
+RULE_KIND_FOR_PLAN = {"flight": "aviation", "expedition": "expedition"}
+_KIND_WORDS = {"aviation": "aviation oxygen rules", "expedition": "expedition guidance"}
+
+
+def select_rule_sets(plan):
+    """Load the rule sets a plan names (or the defaults for its kind) and keep those that fit it.
+
+    Parameters
+    ----------
+    plan : ExpeditionPlan or FlightPlan
+
+    Returns
+    -------
+    (applied, notes)
+        ``applied``: the rule sets of the kind that fits the plan (aviation rules for a flight,
+        expedition guidance for an itinerary), in the plan's order; ``notes``: one sentence for
+        each rule set that does not fit and was therefore not applied.
+
+    Raises
+    ------
+    ProfileError
+        An unknown rule-set id or a faulty rule file (located in the plan where it can be), or
+        no rule set that fits the plan's kind (naming the ones given), rather than a silent
+        "0 not met".
+    """
+    from .errors import AltoxError, ProfileError
     from .rules import load_rule_set
 
+    path = plan.source_path or "<plan>"
     ids = list(plan.rules) or list(DEFAULT_RULES[plan.kind])
-    sets = [load_rule_set(i) for i in ids]
+    sets = []
+    for i, rid in enumerate(ids):
+        try:
+            sets.append(load_rule_set(rid))
+        except ProfileError:
+            raise
+        except AltoxError as exc:
+            line, col = plan.position_of("rules", i) if plan.rules else (None, None)
+            where = ":".join(str(x) for x in (path, line, col) if x is not None)
+            raise ProfileError(f"{where}: rules[{i}]: {exc.message}", path=path, line=line, column=col,
+                               field=f"rules[{i}]", value=rid, expected=exc.expected) from None
     if plan.rule_file_path is not None:
         sets.append(load_rule_set(plan.rule_file_path))
-    return sets
+    want = RULE_KIND_FOR_PLAN[plan.kind]
+    applied = [rs for rs in sets if rs.kind == want]
+    wrong = [rs for rs in sets if rs.kind != want]
+    if not applied:
+        named = "; ".join(f"{rs.id} ({_KIND_WORDS[rs.kind]})" for rs in wrong)
+        defaults = ", ".join(DEFAULT_RULES[plan.kind])
+        line, col = plan.position_of("rules") if plan.rules else (None, None)
+        where = ":".join(str(x) for x in (path, line, col) if x is not None)
+        raise ProfileError(f"{where}: rules: none of the rule sets applied fits a {plan.kind} plan: {named}. "
+                           f"Checking it against them would say nothing; expected {_KIND_WORDS[want]}, "
+                           f"e.g. {defaults} (the defaults for a {plan.kind}).", path=path, line=line,
+                           column=col, field="rules", value=[rs.id for rs in wrong],
+                           expected=f"{want} rule sets")
+    notes = [f"Not applied: {rs.id} ({rs.label}) is {_KIND_WORDS[rs.kind]} and does not fit a "
+             f"{plan.kind} plan; the plan was checked against "
+             f"{', '.join(r.id for r in applied)} only." for rs in wrong]
+    for rs in applied:
+        for ne in rs.not_encoded:
+            notes.append(f"Not checked: {rs.label} {ne.section}: {ne.reason}.".replace("..", "."))
+    return applied, notes
+
+
+def _rule_sets(plan):
+    return select_rule_sets(plan)[0]
 
 
 #: cabin altitudes [ft] whose time above is summed for a flight's summary
@@ -99,23 +160,32 @@ def guidance_findings(plan, rule_sets=None):
         ``cabin_hours`` maps each of :data:`SUMMARY_CABIN_FT` to the hours with the cabin
         strictly above it (empty for an expedition).
     """
-    from .rules.checker import check_flight, check_itinerary, hours_above
+    from .rules.checker import check_flight, check_flight_levels, check_itinerary, hours_above
+    from .rules.loader import FLIGHT_LEVEL_CHECKS
     from .timeline import OXYGEN_NAMES, cabin_crossings
 
     rule_sets = _rule_sets(plan) if rule_sets is None else rule_sets
     findings, cabin_hours = [], {}
     if plan.kind == "flight":
-        figures = list(SUMMARY_CABIN_FT)
+        figures, levels = list(SUMMARY_CABIN_FT), []
         for rs in rule_sets:
             if rs.kind == "aviation":
                 for th in rs.thresholds:
-                    figures += [th.lower_ft] + ([th.top_ft] if th.top_ft is not None else [])
-        pieces = cabin_crossings(plan, figures)
+                    edges = [th.lower_ft] + ([th.top_ft] if th.top_ft is not None else [])
+                    if th.check in FLIGHT_LEVEL_CHECKS:
+                        levels += edges + ([th.unless.up_to_ft] if th.unless and th.unless.up_to_ft else [])
+                    else:
+                        figures += edges
+        pieces = cabin_crossings(plan, figures, levels)
         use = np.array([{"patient": "none"}.get(OXYGEN_NAMES[int(c)], OXYGEN_NAMES[int(c)]) for c in pieces.oxygen])
         for rs in rule_sets:
             if rs.kind == "aviation":
                 findings += check_flight(pieces.time_h, pieces.duration_h, pieces.cabin_pressure_altitude_ft,
                                          pieces.leg + 1, use, rs)
+                findings += check_flight_levels(
+                    pieces.duration_h, pieces.aircraft_pressure_altitude_ft, pieces.leg + 1, use, rs,
+                    pressurized=plan.aircraft.pressurized, pilots_at_controls=plan.pilots_at_controls,
+                    quick_donning=plan.quick_donning_masks, oxygen_carried_h=plan.oxygen_carried_h)
         cabin_hours = {x: hours_above(pieces.duration_h, pieces.cabin_pressure_altitude_ft, x)
                        for x in SUMMARY_CABIN_FT}
     else:
@@ -175,7 +245,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
     ref = {k: res[k][subject_k] for k in PHYSIOLOGY_KEYS}
     on_oxygen = _subject_on_planned_oxygen(plan, tl, everyone[subject_k], res, subject_k, f_v, f_r, factors)
     below = {lvl: np.cumsum(dt * (ref["sao2_pct"] < 100 * lvl)) for lvl in levels}
-    findings, cabin_hours = guidance_findings(plan, rule_sets := _rule_sets(plan))
+    rule_sets, guidance_notes = select_rule_sets(plan)
+    findings, cabin_hours = guidance_findings(plan, rule_sets)
 
     legs = []
     if plan.kind == "flight":
@@ -311,8 +382,11 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
                      "mountain model atmosphere unless a day says otherwise.")
     else:
         notes.append("A flight is acute exposure; cabin altitudes are pressure altitudes (ISA).")
+        from .yamlload import load_data_file
+
+        notes += [" ".join(c["text"].split()) for c in load_data_file("cautions")["flight"]]
     return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
-                      samples, member_samples, members, findings, summary, notes)
+                      samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes)
 
 
 def _validity_notes(legs, members) -> list[str]:
@@ -442,7 +516,9 @@ def _risk(plan, person, rule_sets):
             day = np.array([d.day for d in plan.days])
             sleep = np.array([d.sleep_m for d in plan.days])
             start = max(plan.start_altitude_m, person.home_altitude_m) if person.home_altitude_m else plan.start_altitude_m
-            category, reasons, prophylaxis = risk_category(set(person.history), day, sleep, start, rs)
+            high = np.array([d.high_m if d.high_m is not None else d.sleep_m for d in plan.days])
+            category, reasons, prophylaxis = risk_category(set(person.history), day, sleep, start, rs,
+                                                           high_altitude_m=high)
             return {"risk_category": category, "risk_reasons": reasons, "prophylaxis": prophylaxis,
                     "risk_rule_set": rs.id}
     return {}

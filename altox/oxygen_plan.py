@@ -81,6 +81,15 @@ def _review_target_m(kind: str) -> tuple[float, dict]:
     return m, t
 
 
+def _at_once(rows) -> int:
+    """Most people on oxygen at the same time: the groups of one day or leg add up (crew and
+    passengers both on oxygen on a leg count together), the largest day or leg counts."""
+    per_leg: dict = {}
+    for row in rows:
+        per_leg[row["leg"]] = per_leg.get(row["leg"], 0) + int(row["people"])
+    return max(per_leg.values(), default=0)
+
+
 # -- oxygen review ----------------------------------------------------------------------------
 def oxygen_review(plan, result) -> dict:
     """Oxygen review of an evaluated plan.
@@ -116,11 +125,11 @@ def oxygen_review(plan, result) -> dict:
                                 f"{cyl['safety_margin_fraction']:.0%} margin"})
         devs = sorted({row["device"] for row in planned})
         for dev_id in devs:
-            users = max(row["people"] for row in planned if row["device"] == dev_id)
-            packing.append({"item": ox.get_device(dev_id)["label"], "quantity": users,
+            packing.append({"item": ox.get_device(dev_id)["label"],
+                            "quantity": _at_once(row for row in planned if row["device"] == dev_id),
                             "note": "one per person using it; carry spares"})
-        packing.append({"item": "regulator / flowmeter for the cylinder type", "quantity": max(
-            row["people"] for row in planned), "note": "one per person on oxygen at the same time"})
+        packing.append({"item": "regulator / flowmeter for the cylinder type", "quantity": _at_once(planned),
+                        "note": "one per person on oxygen at the same time"})
         packing.append({"item": "pulse oximeter", "quantity": 1, "note": "titrate flow to SpO2, not to this plan"})
     else:
         notes.append("The plan asks for no supplemental oxygen.")
@@ -342,8 +351,8 @@ def decompression_review(plan, result) -> dict:
         ``crew`` and ``passengers`` descent oxygen per occupant, ``oxygen_total_l``),
         ``worst_leg``, ``convention``, ``tuc_caution``, ``notes``, ``caution``.
     """
-    from .decompression import (descent_convention, descent_time_min, oxygen_free_altitudes_ft,
-                                tuc_range_s, tuc_table)
+    from .decompression import (certification_descent_oxygen_l, certification_flow, descent_convention,
+                                descent_time_min, oxygen_free_altitudes_ft, tuc_range_s, tuc_table)
 
     base = {"plan": plan.name, "kind": plan.kind, "caution": CAUTION}
     if plan.kind != "flight":
@@ -383,18 +392,53 @@ def decompression_review(plan, result) -> dict:
             row["crew"] = dict(_descent(round(alt_ft), free["crew"], float(rate), crew_dev, acts["flight_crew"]))
             row["passengers"] = dict(_descent(round(alt_ft), free["passengers"], float(rate),
                                               conv["passenger_device"], acts["flight_passenger"]))
-            row["oxygen_total_l"] = (row["crew"]["oxygen_l"] * max(crew_n, 0)
-                                     + row["passengers"]["oxygen_l"] * max(pax_n, 0))
+            # the litres shown: the certification standard's minimum flow for each group
+            row["crew_cert"] = certification_descent_oxygen_l(round(alt_ft), free["crew"], float(rate), "crew")
+            row["passengers_cert"] = certification_descent_oxygen_l(round(alt_ft), free["passengers"],
+                                                                    float(rate), "passengers")
+            row["oxygen_total_l"] = (row["crew_cert"]["oxygen_l"] * max(crew_n, 0)
+                                     + row["passengers_cert"]["oxygen_l"] * max(pax_n, 0))
         legs.append(row)
     worst = max(legs, key=lambda r: r["aircraft_ft"]) if legs else None
+    cert = certification_flow()
+    if any(r.get("crew_cert") and (r["crew_cert"]["beyond_standard"] or r["passengers_cert"]["beyond_standard"])
+           for r in legs):
+        notes.append(f"(!) Above {cert['top_ft']:,.0f} ft, the top of {cert['standard']}, or where 100 % oxygen "
+                     "cannot reach its figure, the litres count 100 % oxygen: pressure breathing or a faster "
+                     "descent is needed there.")
+    carriage = _carriage_notes(plan, rule_sets, worst)
+    notes += carriage
     t = tuc_table()
     return {**base, "applicable": True, "descent_rate_ft_min": rate, "oxygen_free_ft": free,
             "rule_sets": [rs.id for rs in rule_sets], "crew_count": crew_n, "passenger_count": pax_n,
             "checkpoints_ft": checkpoints, "legs": legs, "worst_leg": worst["leg"] if worst else None,
             "convention": {"rule": conv["rule"], "basis": conv["basis"], "crew_device": conv["crew_device"],
                            "passenger_device": conv["passenger_device"], "reaction_min": conv["reaction_min"]},
+            "certification_basis": {"standard": cert["standard"], "crew": cert["crew_demand"]["text"],
+                                    "crew_section": cert["crew_demand"]["section"],
+                                    "passengers": cert["passengers"]["text"],
+                                    "passengers_section": cert["passengers"]["section"], "model": cert["model"]},
             "tuc_interpolation": t["interpolation"], "tuc_caution": t["caution"],
             "tuc_rapid_source": t["rapid_decompression_source"], "notes": notes}
+
+
+def _carriage_notes(plan, rule_sets, worst) -> list[str]:
+    """The operating rules' carriage (supply rules) beside the worst leg's descent oxygen."""
+    if worst is None or not worst.get("crew_cert"):
+        return []
+    out = []
+    for rs in rule_sets:
+        for th in rs.thresholds:
+            if th.check != "supply" or worst["aircraft_ft"] <= th.lower_ft:
+                continue
+            stated = ("the plan states " + f"{plan.oxygen_carried_h * 60:.0f} min" if plan.oxygen_carried_h is not None
+                      else "the plan does not state the oxygen carried")
+            out.append(f"Carriage: {rs.label} {th.section} asks for at least {th.supply} of oxygen for "
+                       f"{th.applies_to} above {th.value}; the descent from leg {worst['leg']} needs oxygen for "
+                       f"{worst['crew_cert']['minutes']:.1f} min (crew) and "
+                       f"{worst['passengers_cert']['minutes']:.1f} min (passengers) at the standard's flow; "
+                       f"{stated} for each occupant.")
+    return out
 
 
 def _rule_sets(plan, result):

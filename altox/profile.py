@@ -699,6 +699,16 @@ class _PlanBase(_Model):
         description="SpO2 levels to report time below; default 90 % and 80 %. [fraction]")
 
     _source_path: Optional[str] = PrivateAttr(default=None)
+    _positions: Any = PrivateAttr(default=None)   # where each value was written (PositionMap)
+
+    def position_of(self, *loc) -> tuple[Optional[int], Optional[int]]:
+        """(line, column) where a field was written, e.g. ``position_of("rules", 1)``; None unknown."""
+        if self._positions is None:
+            return None, None
+        try:
+            return self._positions.locate(tuple(loc))
+        except (KeyError, IndexError, TypeError, AttributeError):
+            return None, None
 
     @property
     def source_path(self) -> Optional[str]:
@@ -979,6 +989,18 @@ class FlightPlan(_PlanBase):
         Optional[float], BeforeValidator(_opt(_wrap_unit(parse_vertical_speed))),
         WithJsonSchema(_qschema("Emergency descent rate.", ["4,000 ft/min"], nullable=True))] = Field(
         None, alias="emergency_descent_rate", description="Emergency descent rate. [ft/min]")
+    pilots_at_controls: Annotated[StrictInt, Field(ge=1, le=4)] = Field(
+        1, description="Pilots at the controls throughout the flight; default 1 (the two-pilot "
+        "exceptions of the mask rules then do not apply).")
+    quick_donning_masks: StrictBool = Field(
+        False, description="Whether each pilot has a quick-donning oxygen mask (one hand, within "
+        "5 seconds); default false.")
+    oxygen_carried_h: Annotated[Optional[float], BeforeValidator(_opt(_leg_duration)),
+                                WithJsonSchema(_qschema("Oxygen carried for each occupant, as time of use.",
+                                                        ["10 min", "30 min"], nullable=True))] = Field(
+        None, alias="oxygen_carried", description="Supplemental oxygen available to each occupant for a "
+        "descent after a pressurization failure, as time of use; default: not stated (supply rules are "
+        "then reported as not met). [h]")
     legs: list[Leg] = Field(min_length=1, max_length=MAX_LEGS, description="The legs, in order.")
 
     @model_validator(mode="after")
@@ -1332,6 +1354,7 @@ def load_plan_text(text: str, path: str = "<string>"):
     """
     data, positions = parse_yaml(text, path)
     plan = plan_from_data(data, path, positions)
+    plan._positions = positions
     if path and not path.startswith("<"):
         plan._source_path = path
     return plan
@@ -1364,6 +1387,7 @@ def load_plan(path):
     name = str(path)
     plan = plan_from_data(data, name, positions)
     plan._source_path = name
+    plan._positions = positions
     if plan.rule_file is not None:
         target = plan.rule_file_path
         if not target.is_file():

@@ -350,6 +350,9 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
     out = [Text(result.name, style="bold"), Text(f"{result.kind.capitalize()} plan: {result.source or 'given as data'}"),
            Text(SHORT_CAUTION)]
     out.extend(verdict_renderables(result, plan_verdict(result, rule_sets), feet=feet))
+    if getattr(result, "guidance_notes", None):
+        out.append(Text("Guidance not applied or not checked\n"
+                        + "\n".join(f"(!) {n}" for n in result.guidance_notes)))
 
     # -- people and exposure --------------------------------------------------------------------
     s = result.summary
@@ -549,7 +552,8 @@ def finding_dict(finding) -> dict:
 
 
 #: the sections of a plan's JSON, in the order of the terminal and the report
-JSON_SECTIONS = ("plan", "kind", "source", "caution_short", "rule_sets", "verdict", "findings", "summary",
+JSON_SECTIONS = ("plan", "kind", "source", "caution_short", "rule_sets", "verdict", "findings", "guidance_notes",
+                 "summary",
                  "members", "ranges", "fitness_to_fly", "readings", "legs", "oxygen", "decompression", "notes",
                  "sources", "caution")
 
@@ -585,7 +589,8 @@ def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
     parts = {
         "plan": result.name, "kind": result.kind, "source": result.source, "caution_short": SHORT_CAUTION,
         "rule_sets": result.rule_sets, "verdict": plan_verdict(result, rule_sets),
-        "findings": [finding_dict(f) for f in result.findings], "summary": result.summary,
+        "findings": [finding_dict(f) for f in result.findings],
+        "guidance_notes": list(getattr(result, "guidance_notes", [])), "summary": result.summary,
         "members": result.members, "legs": legs, "notes": result.notes,
         "sources": sources_lines(result, rule_sets), "caution": CAUTION,
     }
@@ -608,11 +613,15 @@ def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
 def plan_csv_rows(result, *, timeline: bool = False) -> list[dict]:
     """One flat row per leg (or per sample with ``timeline``), each with the plan's name."""
     if timeline:
-        return [{"plan": result.name, **row} for row in _timeline_rows(result)]
-    rows = []
-    for leg in map(shown_leg, result.legs):
-        row = {"plan": result.name, **{k: v for k, v in leg.items() if k != "flags"}}
-        row["validity_notes"] = " ".join(leg.get("validity_notes", []))
-        row["flags"] = " ".join(_flag_text(result, {"flags": [k]}) for k in leg["flags"])
-        rows.append(row)
+        rows = [{"plan": result.name, **row} for row in _timeline_rows(result)]
+    else:
+        rows = []
+        for leg in map(shown_leg, result.legs):
+            row = {"plan": result.name, **{k: v for k, v in leg.items() if k != "flags"}}
+            row["validity_notes"] = " ".join(leg.get("validity_notes", []))
+            row["flags"] = " ".join(_flag_text(result, {"flags": [k]}) for k in leg["flags"])
+            rows.append(row)
+    notes = " ".join(getattr(result, "guidance_notes", []))
+    for row in rows:  # on every row, so no reader of the file misses it
+        row["guidance_notes"] = notes
     return rows

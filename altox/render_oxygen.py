@@ -136,15 +136,19 @@ def decompression_review_renderables(review: dict, *, with_caution: bool = True)
         cols = [("Leg", True), ("Aircraft ft", True), ("TUC", False)]
         cols += [(f"to {c} ft", True) for c in cps] + [("Crew L", True), ("Pax L", True), ("Total L", True)]
         rate = review["descent_rate_ft_min"]
+        basis = review.get("certification_basis") or {}
         cap = (f"Emergency descent at {rate:,.0f} ft/min. " if rate else "") + \
-              "TUC from the FAA table, interpolated; at rest, breathing air."
+              "TUC from the FAA table, interpolated; at rest, breathing air. " + \
+              (f"Litres per occupant at the minimum flow of {basis['standard']} (crew "
+               f"{basis['crew_section']}, passengers {basis['passengers_section']})." if basis else "")
         t = _table("After a rapid decompression", cols, caption=cap)
         for r in review["legs"]:
             tuc = (f"> {_dur(r['tuc_max_s'])}" if r["tuc_min_s"] is None
+                   else f"< {_dur(r['tuc_max_s'])} (!)" if r.get("tuc_position") == 1
                    else f"{_dur(r['tuc_min_s'])}-{_dur(r['tuc_max_s'])}")
             times = [_num(r["minutes_to"].get(f"{float(c):.0f}"), "{:.1f} min") for c in review["checkpoints_ft"]]
-            crew = r["crew"]["oxygen_l"] if r["crew"] else None
-            pax = r["passengers"]["oxygen_l"] if r["passengers"] else None
+            crew = r["crew_cert"]["oxygen_l"] if r.get("crew_cert") else None
+            pax = r["passengers_cert"]["oxygen_l"] if r.get("passengers_cert") else None
             t.add_row(str(r["leg"]), _num(r["aircraft_ft"]), tuc, *times, _num(crew, "{:.1f}"),
                       _num(pax, "{:.1f}"), _num(r["oxygen_total_l"], "{:.0f}"))
         out.append(t)
@@ -153,7 +157,9 @@ def decompression_review_renderables(review: dict, *, with_caution: bool = True)
                  f"- Oxygen until the cabin is below {free['crew']:,.0f} ft for crew ({free['crew_from']}) "
                  f"and {free['passengers']:,.0f} ft for passengers ({free['passengers_from']}); "
                  f"{review['crew_count']} crew, {review['passenger_count']} others aboard.",
-                 f"- altox's convention: {review['convention']['rule']}",
+                 (f"- Litres on the basis of the certification standard {basis['standard']}, a design "
+                  f"standard: crew, {basis['crew']}; {basis['passengers']}. {basis['model']}"
+                  if basis else f"- altox's convention: {review['convention']['rule']}"),
                  f"- TUC: {review['tuc_interpolation']}. {review['tuc_caution']} A rapid decompression may "
                  "shorten it by up to half.",
                  "- Litres are per occupant at reference conditions, before any planning margin; "
@@ -161,7 +167,10 @@ def decompression_review_renderables(review: dict, *, with_caution: bool = True)
         lines += [f"- {n}" for n in review["notes"]]
         held = [r for r in review["legs"] for g in ("crew", "passengers")
                 if r[g] is not None and not r[g]["target_held"]]
-        if held:
+        if any(r.get("tuc_position") == 1 for r in review["legs"]):
+            lines.append("- (!) TUC marked < is above the table's highest altitude: shorter than its last "
+                         "row, by an amount the table does not give (not held flat, not extrapolated).")
+        if held and not basis:
             lines.append("- (!) On some legs the assumed device cannot hold the target at the top of the "
                          "descent (pressure breathing or a faster descent is needed).")
         out.append(_text(lines))
@@ -259,6 +268,8 @@ def room_renderables(res: dict) -> list:
 def decompression_renderables(res: dict) -> list:
     """Table of a ``decompress`` result."""
     tuc = (f"more than {_dur(res['tuc_max_s'])}" if res["tuc_min_s"] is None
+           else f"shorter than {_dur(res['tuc_min_s'])} to {_dur(res['tuc_max_s'])} (!) (above the "
+                "table's highest altitude; not extrapolated)" if res.get("tuc_position") == 1
            else f"{_dur(res['tuc_min_s'])} to {_dur(res['tuc_max_s'])}")
     rows = [("Cabin altitude after decompression", f"{res['altitude_ft']:,.0f} ft"),
             ("Time of useful consciousness", tuc)]

@@ -557,15 +557,18 @@ def _decompression(result, rule_sets, review) -> str:
         rows = []
         for r in review["legs"]:
             tuc = (f"&gt; {_dur_s(r['tuc_max_s'])}" if r["tuc_min_s"] is None
+                   else f"&lt; {_dur_s(r['tuc_max_s'])} (!)" if r.get("tuc_position") == 1
                    else f"{_dur_s(r['tuc_min_s'])} to {_dur_s(r['tuc_max_s'])}")
             times = [_num(r["minutes_to"].get(f"{c:.0f}"), "{:.1f} min") for c in cps]
-            crew = r["crew"]["oxygen_l"] if r["crew"] else None
-            pax = r["passengers"]["oxygen_l"] if r["passengers"] else None
+            crew = r["crew_cert"]["oxygen_l"] if r.get("crew_cert") else None
+            pax = r["passengers_cert"]["oxygen_l"] if r.get("passengers_cert") else None
             rows.append(([str(r["leg"]), _num(r["aircraft_ft"]), tuc, *times, _num(crew, "{:.1f}"),
                           _num(pax, "{:.1f}"), _num(r["oxygen_total_l"], "{:.0f}")], ""))
         cap = ("After a rapid decompression: time of useful consciousness (TUC) at rest on air, "
                + (f"emergency descent at {rate:,.0f} ft/min, " if rate else "")
-               + "oxygen per occupant on the way down (L)")
+               + "oxygen per occupant on the way down (L)"
+               + (f", at the minimum flow of {review['certification_basis']['standard']}"
+                  if review.get("certification_basis") else ""))
         parts.append(_table(cap, ["Leg", "Aircraft ft", "TUC"] + [f"To {c:,.0f} ft" for c in cps]
                             + ["Crew L each", "Others L each", "Total L"],
                             [True, True, True] + [True] * len(cps) + [True, True, True], rows))
@@ -573,12 +576,19 @@ def _decompression(result, rule_sets, review) -> str:
         notes = [f"Oxygen until the cabin is below {free['crew']:,.0f} ft for crew ({free['crew_from']}) and "
                  f"{free['passengers']:,.0f} ft for passengers ({free['passengers_from']}); "
                  f"{review['crew_count']} crew, {review['passenger_count']} others aboard.",
-                 f"altox's convention: {review['convention']['rule']}",
+                 (f"Litres on the basis of the certification standard {review['certification_basis']['standard']}, "
+                  f"a design standard: crew, {review['certification_basis']['crew']}; "
+                  f"{review['certification_basis']['passengers']}. {review['certification_basis']['model']}"
+                  if review.get("certification_basis") else f"altox's convention: {review['convention']['rule']}"),
                  f"TUC: {review['tuc_interpolation']}. {review['tuc_caution']} A rapid decompression may shorten "
                  "it by up to half.",
                  "Litres are per occupant at reference conditions, before any planning margin; certified "
                  "aircraft systems are sized by their own rules."] + list(review.get("notes", []))
-        if any(r[g] is not None and not r[g]["target_held"] for r in review["legs"] for g in ("crew", "passengers")):
+        if any(r.get("tuc_position") == 1 for r in review["legs"]):
+            notes.append("(!) TUC marked < is above the table's highest altitude: shorter than its last row, "
+                         "by an amount the table does not give (not held flat, not extrapolated).")
+        if not review.get("certification_basis") and any(
+                r[g] is not None and not r[g]["target_held"] for r in review["legs"] for g in ("crew", "passengers")):
             notes.append("(!) On some legs the assumed device cannot hold the target at the top of the descent "
                          "(pressure breathing or a faster descent is needed).")
         parts.append('<ul class="plain">' + "".join(f"<li>{_e(n)}</li>" for n in notes) + "</ul>")
@@ -595,6 +605,10 @@ def _guidance(result, rule_sets, missing) -> str:
     parts = ['<section id="guidance">', "<h2>Guidance applied and its sources</h2>",
              "<p>The findings are in the verdict at the top; here are the rule sets altox read the plan "
              "against, with their sources.</p>"]
+    if getattr(result, "guidance_notes", None):
+        parts.append("<h3>Not applied or not checked</h3>")
+        parts.append('<ul class="plain">' + "".join(f"<li><strong>(!)</strong> {_e(n)}</li>"
+                                                   for n in result.guidance_notes) + "</ul>")
     for rs in rule_sets:
         ths = "".join(_threshold_item(th) for th in rs.thresholds)
         url = f" Official text: <code>{_e(rs.url)}</code>." if rs.url else ""

@@ -118,6 +118,8 @@ class Timeline:
     oxygen: np.ndarray
     cabin_pressure_altitude_ft: np.ndarray
     leg_labels: list = field(default_factory=list)
+    #: flights: the aircraft's pressure altitude [ft] of each sample (None for expeditions)
+    aircraft_pressure_altitude_ft: np.ndarray | None = None
 
     _ARRAYS = ("time_h", "duration_h", "leg", "altitude_m", "aircraft_altitude_m", "pb_mmhg",
                "sleeping", "oxygen", "cabin_pressure_altitude_ft")
@@ -333,6 +335,7 @@ def _flight_on(plan: FlightPlan, bounds: np.ndarray) -> Timeline:
         oxygen=oxygen,
         cabin_pressure_altitude_ft=cabin_ft,
         leg_labels=labels,
+        aircraft_pressure_altitude_ft=aircraft_pa_ft,
     )
 
 
@@ -341,7 +344,7 @@ def _expand_flight(plan: FlightPlan) -> Timeline:
     return _flight_on(plan, _sample_bounds(leg_end_h, float(leg_end_h[-1]), plan.sample_every_h))
 
 
-def cabin_crossings(plan: FlightPlan, thresholds_ft) -> Timeline:
+def cabin_crossings(plan: FlightPlan, thresholds_ft, aircraft_thresholds_ft=()) -> Timeline:
     """The flight cut at every leg end and every exact time its cabin crosses a threshold.
 
     Within a leg the aircraft's pressure altitude changes linearly with time, and the cabin
@@ -358,6 +361,8 @@ def cabin_crossings(plan: FlightPlan, thresholds_ft) -> Timeline:
     plan : FlightPlan
     thresholds_ft : sequence of float
         Cabin pressure altitudes [ft] whose crossings cut the flight.
+    aircraft_thresholds_ft : sequence of float
+        Aircraft pressure altitudes [ft] (flight levels) whose crossings also cut it.
 
     Returns
     -------
@@ -375,6 +380,7 @@ def cabin_crossings(plan: FlightPlan, thresholds_ft) -> Timeline:
         p_x = np.asarray(pressure_altitude_ft_to_mmhg(x_ft), dtype=float) - ac.max_differential_mmhg
         if np.any(p_x > 0):
             aircraft_ft.append(np.asarray(pressure_altitude_ft(p_x[p_x > 0]), dtype=float))
+    aircraft_ft.append(np.asarray(list(aircraft_thresholds_ft), dtype=float))
     cand = np.concatenate(aircraft_ft)
     a0, a1 = ends[:, 0:1], ends[:, 1:2]
     moving = (a1 != a0)[:, 0]

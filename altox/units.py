@@ -98,6 +98,11 @@ def _describe(value) -> str:
     return repr(value) if isinstance(value, str) else str(value)
 
 
+def is_flight_level(value) -> bool:
+    """Whether ``value`` is written as a flight level (``"FL250"``): a pressure altitude."""
+    return isinstance(value, str) and _FL_RE.match(value) is not None
+
+
 def parse_quantity(value, kind: str, *, field: str = "value", default_unit: str | None = None) -> float:
     """Parse a quantity written with its unit and return it in altox's inside unit.
 

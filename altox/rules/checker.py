@@ -34,7 +34,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import AltoxError
-from .loader import RuleSet, Threshold, load_rule_set
+from .loader import FLIGHT_LEVEL_CHECKS, RuleSet, Threshold, load_rule_set
 
 OXYGEN_USE = ("none", "crew", "all")
 #: oxygen_use values that meet a threshold for each kind of person
@@ -121,7 +121,20 @@ def _fmt_list(values) -> str:
 
 
 def _on_legs(legs) -> str:
-    return ("on leg " if len(legs) == 1 else "on legs ") + _fmt_list(legs)
+    """'on leg 4', 'on legs 4 and 6', 'on legs 2 to 6' (runs of three or more joined)."""
+    legs = sorted(int(x) for x in legs)
+    parts, i = [], 0
+    while i < len(legs):
+        j = i
+        while j + 1 < len(legs) and legs[j + 1] == legs[j] + 1:
+            j += 1
+        if j - i >= 2:
+            parts.append(f"{legs[i]} to {legs[j]}")
+            i = j + 1
+        else:
+            parts.append(str(legs[i]))
+            i += 1
+    return ("on leg " if len(legs) == 1 else "on legs ") + _fmt_list(parts)
 
 
 def _band_words(th: Threshold) -> str:
@@ -241,6 +254,8 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
 
     findings: list[Finding] = []
     for th in rs.thresholds:
+        if th.check in FLIGHT_LEVEL_CHECKS:   # see check_flight_levels
+            continue
         lower, top, limit_h = th.lower_ft, th.top_ft, th.duration_h
         band = in_band(alt, lower, top)
         if not band.any():
@@ -273,6 +288,104 @@ def check_flight(time_h, duration_h, cabin_pressure_altitude_ft, leg, oxygen_use
             msg = (f"Guidance from {cite} ({th.requirement}): the plan has {span}, and its oxygen use "
                    f"covers {_who(th.applies_to)} there, {_on_legs(where_legs)}.")
             findings.append(_finding(rs, th, where_legs, "required-planned", msg, band_h))
+    return findings
+
+
+def _fmt_fl(ft: float) -> str:
+    return f"FL{ft / 100:03.0f}" if ft >= 17999.5 else _fmt_ft(ft)
+
+
+def check_flight_levels(duration_h, aircraft_pressure_altitude_ft, leg, oxygen_use, rule_set, *,
+                        pressurized: bool, pilots_at_controls: int = 1, quick_donning: bool = False,
+                        oxygen_carried_h: float | None = None) -> list[Finding]:
+    """Check the rules of a rule set that turn on the aircraft's flight altitude.
+
+    ``mask`` rules (e.g. 14 CFR 91.211(b)(1)(ii)): while the aircraft is above ``value`` (and
+    at or below ``band_top``), one pilot at the controls wears and uses an oxygen mask.  The
+    plan meets it where its oxygen use covers the crew (``'crew'`` or ``'all'``: read as a pilot
+    on a mask), or where the rule's ``unless`` holds: at least that many pilots at the controls,
+    each with a quick-donning mask if asked, and the aircraft at or below ``unless.up_to``.
+    ``supply`` rules (e.g. 91.211(b)(1)(i)): while the aircraft is above ``value``, a supply of
+    ``supply`` for each occupant is available for a descent after a pressurization failure; met
+    when the plan states at least that much oxygen carried per occupant.  Rules marked
+    ``pressurized_only`` are skipped for an unpressurized aircraft (whose cabin rules apply).
+
+    Parameters
+    ----------
+    duration_h, aircraft_pressure_altitude_ft, leg, oxygen_use : arrays, one entry per sample
+        As for :func:`check_flight`, with the aircraft's pressure altitude [ft] in place of the
+        cabin's.
+    rule_set : str, path or RuleSet
+    pressurized : bool
+    pilots_at_controls : int
+        Pilots at the controls (default 1: the exceptions for two pilots do not apply).
+    quick_donning : bool
+        Whether each pilot has a quick-donning mask (default False).
+    oxygen_carried_h : float or None
+        Supplemental oxygen carried for each occupant, as hours of use; None when not stated.
+
+    Returns
+    -------
+    list of Finding
+    """
+    rs = _rule_set(rule_set, "aviation")
+    dur = _float_array(duration_h, "duration_h")
+    n = dur.size
+    alt = _float_array(aircraft_pressure_altitude_ft, "aircraft_pressure_altitude_ft", n)
+    legs = _float_array(leg, "leg", n).astype(int)
+    use = np.asarray(oxygen_use, dtype=object)
+    if use.ndim == 0:
+        use = np.full(n, use.item(), dtype=object)
+    findings: list[Finding] = []
+    for th in rs.thresholds:
+        if th.check not in FLIGHT_LEVEL_CHECKS or (th.pressurized_only and not pressurized):
+            continue
+        band = in_band(alt, th.lower_ft, th.top_ft)
+        if not band.any():
+            continue
+        band_h = float(dur[band].sum())
+        where = f"{rs.label} {th.section}"
+        top = f" up to {_fmt_fl(th.top_ft)}" if th.top_ft is not None else ""
+        span = f"the aircraft is above {_fmt_fl(th.lower_ft)}{top} for {_fmt_min(band_h)}"
+        band_legs = sorted(set(legs[band].tolist()))
+        if th.check == "supply":
+            need = th.supply_h
+            if oxygen_carried_h is not None and oxygen_carried_h >= need - _EPS_H:
+                msg = (f"Guidance from {where} ({th.requirement}): {span}; the plan carries "
+                       f"{_fmt_min(oxygen_carried_h)} for each occupant, {_on_legs(band_legs)}.")
+                findings.append(_finding(rs, th, band_legs, "required-planned", msg))
+            else:
+                carried = ("does not state the oxygen carried for each occupant"
+                           if oxygen_carried_h is None else
+                           f"states only {_fmt_min(oxygen_carried_h)} of oxygen for each occupant")
+                msg = (f"Guidance from {where} ({th.requirement}): {span}, and the plan {carried}; "
+                       f"{_fmt_min(need)} is asked for, {_on_legs(band_legs)}.")
+                findings.append(_finding(rs, th, band_legs, "required-not-planned", msg))
+            continue
+        covered = np.isin(use, list(_COVERED_BY["crew"])) & band
+        ex = th.unless
+        excused = np.zeros(n, dtype=bool)
+        if ex is not None and pilots_at_controls >= ex.pilots_at_controls and (quick_donning or not ex.quick_donning):
+            excused = band & (alt <= ex.up_to_ft + _EPS_FT if ex.up_to_ft is not None else True)
+        short = band & ~covered & ~excused
+        crew = (f"{pilots_at_controls} pilot{'s' if pilots_at_controls != 1 else ''}, "
+                f"{'quick-donning masks' if quick_donning else 'no quick-donning masks stated'}")
+        if short.any():
+            short_legs = sorted(set(legs[short].tolist()))
+            why = ""
+            if ex is not None:
+                why = (f"; the exception needs {ex.pilots_at_controls} pilots at the controls"
+                       + (" each with a quick-donning mask" if ex.quick_donning else "")
+                       + (f" and holds only at or below {_fmt_fl(ex.up_to_ft)}" if ex.up_to_ft is not None else ""))
+            msg = (f"Guidance from {where} ({th.requirement}): {span}, and the plan has no pilot on a "
+                   f"mask there ({crew}{why}), {_on_legs(short_legs)}.")
+            findings.append(_finding(rs, th, short_legs, "required-not-planned", msg))
+        else:
+            how = "the crew is on oxygen" if not excused.any() else (
+                f"the exception applies ({crew})" if not covered.any() else
+                f"the crew is on oxygen or the exception applies ({crew})")
+            msg = f"Guidance from {where} ({th.requirement}): {span}; {how}, {_on_legs(band_legs)}."
+            findings.append(_finding(rs, th, band_legs, "required-planned", msg))
     return findings
 
 
@@ -407,7 +520,7 @@ def check_itinerary(day, sleep_altitude_m, high_altitude_m, start_altitude_m, ru
     return findings
 
 
-def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_set):
+def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_set, high_altitude_m=None):
     """Risk category of one party member under a guideline's risk table.
 
     Parameters
@@ -418,6 +531,9 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
         The itinerary, as for :func:`check_itinerary`.
     rule_set : str, path or RuleSet
         An expedition rule set with a ``risk_table``.
+    high_altitude_m : array of float, optional
+        Highest point of each day [m] (the very-rapid-ascent row reads the highest of it and
+        the sleeping altitude); the sleeping altitude where not given.
 
     Returns
     -------
@@ -440,6 +556,10 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
     nights = _nights(day, sleep_altitude_m, start_altitude_m)
     start = float(start_altitude_m)
     day1 = nights[0].sleep_m
+    days_arr = _float_array(day, "day")
+    top_of_day = _float_array(sleep_altitude_m, "sleep_altitude_m", days_arr.size)
+    if high_altitude_m is not None:
+        top_of_day = np.maximum(top_of_day, _float_array(high_altitude_m, "high_altitude_m", days_arr.size))
     max_sleep = max(n.sleep_m for n in nights)
 
     gain_th = rs.thresholds_by_check("sleep_gain")
@@ -474,6 +594,8 @@ def risk_category(member_history, day, sleep_altitude_m, start_altitude_m, rule_
             return bool(_fast_days(nights, v, above)) and extra_ok
         if c == "fast_gain_without_extra_days":
             return bool(_fast_days(nights, v, above)) and not extra_ok
+        if c == "very_rapid_ascent":   # reading of the table's example: see docs/rules.md
+            return bool(np.any((days_arr < row.within_days) & (top_of_day >= v - _EPS_M)))
         raise AltoxError(f"risk table criterion {c!r} is not known to this checker", field="criterion")
 
     matched = [row for row in rs.risk_table.rows if applies(row)]

@@ -40,13 +40,14 @@ Quantity = Literal[
     "sleeping_altitude_gain_per_day",  # m per day
     "rest_day_interval",              # days
     "sleeping_gain_per_extra_day",    # m of gain per extra acclimatization day
+    "flight_altitude",                # ft (pressure altitude of the aircraft: flight levels)
 ]
-Check = Literal["oxygen", "limit", "sleep_gain", "rest_interval", "rest_per_gain"]
+Check = Literal["oxygen", "limit", "sleep_gain", "rest_interval", "rest_per_gain", "mask", "supply"]
 Category = Literal["low", "moderate", "high"]
 Criterion = Literal[
     "no_history_max_sleep_at_most", "gradual", "ams_day1_between", "no_ams_day1_above",
     "fast_gain_with_extra_days", "ams_day1_at_least", "hape_or_hace", "day1_above",
-    "fast_gain_without_extra_days", "history_ams", "day1_at_least",
+    "fast_gain_without_extra_days", "history_ams", "day1_at_least", "very_rapid_ascent",
 ]
 
 #: unit kind (for :func:`altox.units.parse_quantity`) of each quantity
@@ -56,6 +57,7 @@ QUANTITY_KIND = {
     "sleeping_altitude_gain_per_day": "length",
     "rest_day_interval": "duration",
     "sleeping_gain_per_extra_day": "length",
+    "flight_altitude": "length",
 }
 #: the checks each quantity may drive
 QUANTITY_CHECKS = {
@@ -64,14 +66,17 @@ QUANTITY_CHECKS = {
     "sleeping_altitude_gain_per_day": {"sleep_gain"},
     "rest_day_interval": {"rest_interval"},
     "sleeping_gain_per_extra_day": {"rest_per_gain"},
+    "flight_altitude": {"mask", "supply"},
 }
-AVIATION_CHECKS = {"oxygen", "limit"}
+AVIATION_CHECKS = {"oxygen", "limit", "mask", "supply"}
+#: aviation checks that turn on the aircraft's flight altitude, not on the cabin
+FLIGHT_LEVEL_CHECKS = {"mask", "supply"}
 EXPEDITION_CHECKS = {"sleep_gain", "rest_interval", "rest_per_gain"}
 #: criteria of the risk table that need a ``value`` (and ``band_top``)
 CRITERIA_WITH_VALUE = {
     "no_history_max_sleep_at_most", "gradual", "ams_day1_between", "no_ams_day1_above",
     "fast_gain_with_extra_days", "ams_day1_at_least", "day1_above",
-    "fast_gain_without_extra_days", "day1_at_least",
+    "fast_gain_without_extra_days", "day1_at_least", "very_rapid_ascent",
 }
 CRITERIA_WITH_BAND = {"ams_day1_between"}
 
@@ -95,6 +100,25 @@ class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", str_strip_whitespace=True)
 
 
+class Unless(_Strict):
+    """The exception of a mask rule: when it is met, no pilot need wear the mask."""
+
+    pilots_at_controls: int = Field(ge=1, le=4)
+    quick_donning: bool
+    up_to: str | None = None   # the exception holds at or below this flight altitude
+
+    @field_validator("up_to")
+    @classmethod
+    def _length(cls, text):
+        if text is not None:
+            parse_quantity(text, "length", field="up_to")
+        return text
+
+    @property
+    def up_to_ft(self) -> float | None:
+        return None if self.up_to is None else round(parse_quantity(self.up_to, "length") * _FT_PER_M, 6)
+
+
 class Threshold(_Strict):
     """One figure of a rule set, with the words of the rule and where it was read."""
 
@@ -107,6 +131,9 @@ class Threshold(_Strict):
     above: str | None = None
     duration: str | None = None
     condition: str | None = None
+    supply: str | None = None          # 'supply' checks: the supply each occupant needs, e.g. '10 min'
+    unless: Unless | None = None       # 'mask' checks: the exception
+    pressurized_only: bool = False     # the rule is for aircraft with a pressurized cabin
     requirement: str = Field(min_length=1)
     section: str = Field(min_length=1)
     basis: Basis
@@ -156,14 +183,24 @@ class Threshold(_Strict):
             raise ValueError(f"check {self.check!r} does not fit quantity {self.quantity!r}; "
                              f"expected one of {sorted(QUANTITY_CHECKS[self.quantity])}")
         if self.band_top is not None:
-            if self.check != "oxygen":
-                raise ValueError("band_top is only meaningful for an 'oxygen' check")
+            if self.check not in ("oxygen", "mask"):
+                raise ValueError("band_top is only meaningful for an 'oxygen' or 'mask' check")
             if self.top_ft <= self.lower_ft:
                 raise ValueError(f"band_top {self.band_top!r} must lie above value {self.value!r}")
         if self.check in EXPEDITION_CHECKS and self.above is None:
             raise ValueError("an expedition threshold needs 'above' (the altitude it applies above)")
         if self.check in AVIATION_CHECKS and self.above is not None:
             raise ValueError("'above' is for expedition thresholds; use 'value' for aviation")
+        if (self.check == "supply") != (self.supply is not None):
+            raise ValueError("a 'supply' check needs 'supply' (e.g. '10 min'), and only it takes one")
+        if self.supply is not None:
+            minutes = parse_quantity(self.supply, "duration", field="supply")
+            if not math.isfinite(minutes) or minutes <= 0:
+                raise ValueError(f"supply {self.supply!r} must be a positive duration")
+        if self.unless is not None and self.check != "mask":
+            raise ValueError("'unless' belongs to a 'mask' check")
+        if self.check in FLIGHT_LEVEL_CHECKS and self.duration is not None:
+            raise ValueError("a flight-level check takes no 'duration'")
         return self
 
     # -- values in the checker's units ---------------------------------------------------
@@ -176,6 +213,11 @@ class Threshold(_Strict):
     def top_ft(self) -> float | None:
         """Aviation: the top of the band [ft], 'up to and including'; None for no top."""
         return None if self.band_top is None else _altitude_ft(self.band_top, self.quantity, "band_top")
+
+    @property
+    def supply_h(self) -> float | None:
+        """The supply each occupant needs [h] ('supply' checks), or None."""
+        return None if self.supply is None else parse_quantity(self.supply, "duration")
 
     @cached_property   # parsed once per rule set (the checker reads it for every plan)
     def duration_h(self) -> float | None:
@@ -216,6 +258,7 @@ class RiskRow(_Strict):
     criterion: Criterion
     value: str | None = None
     band_top: str | None = None
+    within_days: int | None = Field(None, ge=1, le=365)   # very_rapid_ascent: reached before this day
     text: str = Field(min_length=1)
 
     @field_validator("value", "band_top")
@@ -231,6 +274,8 @@ class RiskRow(_Strict):
             raise ValueError(f"criterion {self.criterion!r} needs a value, e.g. '2,800 m'")
         if self.criterion in CRITERIA_WITH_BAND and self.band_top is None:
             raise ValueError(f"criterion {self.criterion!r} needs band_top, e.g. '2,800 m'")
+        if (self.criterion == "very_rapid_ascent") != (self.within_days is not None):
+            raise ValueError("criterion 'very_rapid_ascent' needs within_days (e.g. 7), and only it takes one")
         return self
 
     @property
