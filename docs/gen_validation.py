@@ -46,6 +46,7 @@ SPO2 = ("sao2_pct", "SpO2", "%", "tol_spo2_pct", +1, 3.0)
 BANDS = ((-1e9, 1500.0, "below 1,500 m"), (1500.0, 3500.0, "1,500-3,499 m"), (3500.0, 5500.0, "3,500-5,499 m"),
          (5500.0, 7500.0, "5,500-7,499 m"), (7500.0, 1e9, "7,500 m and above"))
 STATES = ("acute", "acclimatized", "asleep")
+TITLES = {"saturation points": "Saturation (points)", "mmHg": "Gas tensions (mmHg)", "pH": "pH"}
 
 
 @dataclass
@@ -162,7 +163,7 @@ def _model(row, alt, keys) -> tuple[dict, str]:
         for k in keys:
             values[k].append(float(r[k]))
         texts.append(text)
-    return {k: float(np.mean(v)) for k, v in values.items()}, " | ".join(texts)
+    return {k: float(np.mean(v)) for k, v in values.items()}, " / ".join(texts)
 
 
 def _calibrated_labels(row) -> set:
@@ -231,7 +232,7 @@ def bias_table(cases: list[Case]) -> list[str]:
         if not sub:
             continue
         digits = 3 if group == "pH" else 1
-        lines += [f"### {group[0].upper() + group[1:]}", "",
+        lines += [f"### {TITLES[group]}", "",
                   "| altitude band | state | n | optimistic: n, mean, largest | beyond tolerance | "
                   "conservative: n, mean, largest | beyond tolerance + allowance |",
                   "|---|---|---|---|---|---|---|"]
@@ -254,6 +255,26 @@ def bias_table(cases: list[Case]) -> list[str]:
                              f"{summary(con)} | {beyond_con} |")
         lines.append("")
     return lines
+
+
+def trust_by_band(cases: list[Case]) -> list[str]:
+    """Per altitude band: how far the model can be trusted on saturation and in which direction it errs."""
+    lines = ["| altitude band | states compared | saturation residuals (validation) | direction | "
+             "comparisons breaking the rule |", "|---|---|---|---|---|"]
+    for _lo, _hi, band in BANDS:
+        cell = [c for c in cases if c.band == band and not c.calibration and _unit_group(c) == "saturation points"]
+        if not cell:
+            continue
+        lo = min(c.directed for c in cell)
+        hi = max(c.directed for c in cell)
+        mean = float(np.mean([c.directed for c in cell]))
+        direction = ("optimistic" if mean > 0.5 else "conservative" if mean < -0.5 else "unbiased") + \
+            f" on average ({mean:+.1f})"
+        broken = [c.id for c in cell if not c.passes]
+        states = ", ".join(s for s in STATES if any(c.state == s for c in cell))
+        lines.append(f"| {band} | {states} | {lo:+.1f} to {hi:+.1f} points (n = {len(cell)}) | {direction} | "
+                     f"{', '.join(broken) if broken else 'none'} |")
+    return lines + [""]
 
 
 def _fmt(value: float, label: str) -> str:
@@ -328,7 +349,13 @@ def main() -> str:
         if text and case.row["id"] not in seen:
             seen.add(case.row["id"])
             lines.append(f"- `{case.row['id']}`: {text}.")
-    lines += ["", "## Bias by altitude band and state (validation rows)", "",
+    lines += ["", "## How far the model can be trusted, by altitude band", "",
+              "Saturation residuals of the validation rows (model minus published, signed so that",
+              "positive is optimistic), from the bias table below. A planner should read the",
+              "expected saturation as no better than the published mean plus the optimistic end of",
+              "the range in its band.", ""]
+    lines += trust_by_band(cases)
+    lines += ["## Bias by altitude band and state (validation rows)", "",
               "Residuals signed so that positive is optimistic; the mean and largest are in the unit of",
               "the heading. `beyond` counts the comparisons that break the acceptance rule.", ""]
     lines += bias_table(cases)
