@@ -280,7 +280,7 @@ def verdict_renderables(result, verdict: dict, feet: bool = False) -> list:
     from rich.text import Text
 
     w = verdict["worst"]
-    out = [Text("Verdict", style="bold")]
+    out = []
     state = "asleep" if w["asleep"] else "awake"
     from .units import label_in_unit
 
@@ -288,9 +288,9 @@ def verdict_renderables(result, verdict: dict, feet: bool = False) -> list:
     where = label if label.lower().startswith("leg") else f"{label} (leg {w['leg']})"
     who = w.get("subject", "reference adult")
     if w.get("time_limited"):   # no steady state: never a saturation
-        out.append(Text(f"Worst moment: {where}: {w['time_limited']}, {who} on air."))
+        out.append(Text(f"Verdict. Worst moment: {where}: {w['time_limited']}, {who} on air."))
     else:
-        out.append(Text(f"Worst moment: {where}: expected SaO2 {w['sao2_pct']:.0f} % "
+        out.append(Text(f"Verdict. Worst moment: {where}: expected SaO2 {w['sao2_pct']:.0f} % "
                         f"{state}, {who} at rest on air."))
     people = verdict["people"]
     if len(people) > 1:

@@ -102,7 +102,9 @@ def test_the_answer_comes_first(demo_outputs, demo):
     for k, f in enumerate(result.findings):
         assert f"{k + 1}. " in head
         assert _flat(f.message) in head, f.message
-    assert "To do:" in head or not any(f.status != "required-planned" for f in result.findings)
+    verdict = json.loads(out["json"])["verdict"]
+    for f in verdict["findings"]:                       # what to do, whole, within the 25 lines
+        assert _flat(f["what_to_do"]) in head, f["what_to_do"]
     for r in result.extras.get("readings") or []:       # readings that call for action come first too
         for a in r.get("actions", []):
             assert f"ACTION (readings) day {r['day']}, {r['member']}" in head

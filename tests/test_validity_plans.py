@@ -61,9 +61,10 @@ def test_terminal_never_shows_a_saturation_for_the_leg():
     res = run_cli("plan", FIXTURE, "--members", "10")
     assert res.returncode == 0, res.stderr
     out = res.stdout
-    worst = next(line for line in out.splitlines() if line.startswith("Worst moment:"))
+    worst = next(line for line in out.splitlines() if line.startswith("Verdict. Worst moment:"))
     assert "no steady state" in worst and "SaO2" not in worst
-    per_person = [line for line in out.splitlines() if line.startswith(("reference adult ", "Mira", "Jory", "Pim"))]
+    per_person = [line for line in out.splitlines()           # the table's rows (columns apart by spaces)
+                  if line.startswith(("reference adult ", "Mira", "Jory", "Pim")) and "   " in line]
     assert len(per_person) == 4 and all(" none " in line for line in per_person)
     row = next(line for line in out.splitlines() if line.strip("│ ").startswith(f"{FAILURE_LEG} ")
                and "none" in line)
