@@ -10,7 +10,7 @@ from typing import Optional
 
 import typer
 
-from .cli import app, run_guarded
+from .cli_base import app, run_guarded
 from .defaults import ENSEMBLE_MEMBERS
 
 

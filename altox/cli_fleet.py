@@ -7,7 +7,7 @@ from typing import Optional
 
 import typer
 
-from .cli import app, run_guarded
+from .cli_base import app, run_guarded
 
 _FORMATS = ("jsonl", "csv")
 _ENGINES = ("local", "dask")

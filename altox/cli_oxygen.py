@@ -13,7 +13,7 @@ from typing import Optional
 
 import typer
 
-from .cli import _parse_number, app, run_guarded
+from .cli_base import _parse_number, app, run_guarded
 
 _JSON_HELP = "Print one JSON object instead of the table."
 _VOLUME_RE = re.compile(r"^\s*(?P<num>\d+(?:\.\d*)?|\.\d+)\s*(?P<unit>l|L|litres?|liters?)\s*$")

@@ -14,7 +14,7 @@ from typing import Optional
 
 import typer
 
-from .cli import app, run_guarded
+from .cli_base import app, run_guarded
 from .defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 
 _SEED_HELP = "Seed of the ensemble (the same seed gives the same numbers)."
@@ -54,7 +54,7 @@ def _plan_and_ranges(file, members, seed, kind=None):
     from .evaluate import evaluate_plan
     from .profile import load_plan
 
-    from .cli import check_seed
+    from .cli_base import check_seed
 
     _check_members(members)
     check_seed(seed)
@@ -325,7 +325,7 @@ def fitness_cmd(
         else:
             if pao2 is None and spo2 is None:
                 raise UnitError("give a plan file, or --pao2 (e.g. 61mmHg) or --spo2 (e.g. '91 %').")
-            from .cli import _parse_number
+            from .cli_base import _parse_number
 
             results = [fitness_to_fly(
                 pao2_ground_mmhg=None if pao2 is None else parse_quantity(pao2, "pressure", field="--pao2"),
