@@ -31,6 +31,7 @@ import re
 from pathlib import Path
 
 from .render import FLAG_BROKEN
+from .rules.applied import applied_rule_sets  # noqa: E402,F401  (re-exported)
 
 #: default figure size [in] and resolution [dots per inch] of ``altox plan --chart``
 CHART_SIZE_IN = (10.0, 7.0)
@@ -73,45 +74,6 @@ def _plain(text: str) -> str:
     return str(text).replace("$", r"\$")
 
 
-# -- rule sets --------------------------------------------------------------------------------
-def applied_rule_sets(result, rule_files=()) -> tuple[list, list[str]]:
-    """The :class:`~altox.rules.RuleSet` objects of ``result.rule_sets``.
-
-    Shipped ids load directly; a user's rule set (``rule_file`` in the plan, or a file given
-    to ``--rules``) is found among ``rule_files`` or the plan's own ``rule_file``.
-
-    Returns
-    -------
-    (rule_sets, missing)
-        The rule sets found, in the plan's order, and the ids that could not be found.
-    """
-    from .errors import AltoxError
-    from .rules import available_rule_sets, load_rule_set
-
-    shipped = set(available_rule_sets())
-    wanted = list(result.rule_sets)
-    found: dict[str, object] = {}
-    for rid in wanted:
-        if rid in shipped:
-            found[rid] = load_rule_set(rid)
-    extra = [Path(f) for f in rule_files]
-    if any(rid not in found for rid in wanted) and result.source:
-        try:
-            from .profile import load_plan
-
-            own = load_plan(result.source).rule_file_path
-            if own is not None:
-                extra.append(own)
-        except (AltoxError, OSError):
-            pass
-    for path in extra:
-        try:
-            rs = load_rule_set(path)
-        except (AltoxError, OSError):
-            continue
-        if rs.id in wanted and rs.id not in found:
-            found[rs.id] = rs
-    return [found[r] for r in wanted if r in found], [r for r in wanted if r not in found]
 
 
 def threshold_lines(result, rule_sets) -> list[dict]:
@@ -519,7 +481,7 @@ def save_chart(result, path, *, feet: bool = False, rule_sets=None, figsize=CHAR
 
     The caller decides whether an existing file may be replaced (:func:`altox.report.check_output`).
     """
-    from .report import write_atomic
+    from .outfiles import write_atomic
 
     data = render_chart(result, chart_format(path), feet=feet, rule_sets=rule_sets, figsize=figsize, dpi=dpi)
     return write_atomic(path, data)

@@ -73,7 +73,7 @@ def fix(
     def body():
         from .errors import AltoxError
         from .profile import load_plan
-        from .report import check_output, write_atomic
+        from .outfiles import check_output, write_atomic
         from . import repair as rp
 
         if write is not None:

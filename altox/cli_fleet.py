@@ -58,7 +58,7 @@ def review(
     """Review many plans: one result line per plan, then a summary across the fleet."""
     def check():
         from .errors import AltoxError
-        from .report import check_output
+        from .outfiles import check_output
 
         if fmt not in _FORMATS:
             raise AltoxError(f"--format: {fmt!r} is not a format; expected jsonl or csv.", field="--format")

@@ -48,7 +48,7 @@ CABIN_THRESHOLDS_FT = tuple(int(x) for x in SUMMARY_CABIN_FT)
 DEFAULT_BATCH = 256
 _PLAN_SUFFIXES = (".yaml", ".yml")
 _STREAM_SUFFIXES = (".jsonl", ".ndjson")
-from .render import CAUTION  # noqa: E402  the one caution every output carries
+from .rules.cautions import CAUTION  # noqa: E402  the one caution every output carries
 
 
 # -- sources ----------------------------------------------------------------------------------

@@ -22,7 +22,7 @@ from functools import lru_cache
 import numpy as np
 
 from . import oxygen as ox
-from .render import CAUTION
+from .rules.cautions import CAUTION
 
 __all__ = ["oxygen_review", "decompression_review"]
 

@@ -6,14 +6,9 @@ import csv
 import io
 import json
 import math
+from .rules.cautions import CAUTION  # noqa: E402,F401  (re-exported)
+from .terminal import caution_panel  # noqa: E402,F401  (re-exported)
 
-CAUTION = (
-    "GUIDANCE ONLY. altox computes model estimates for planning; they are not measurements "
-    "and not a clearance to fly, climb or travel. Thresholds shown are guidance drawn from "
-    "published rules and guidelines: the aviation authority's rules, the operator's "
-    "procedures, local codes and licensed aviation or expedition medicine take precedence. "
-    "Individuals vary widely; check people, not numbers."
-)
 
 # rows of the point table: key, label, unit, digits; pressures get a kPa column
 _POINT_ROWS = (
@@ -108,10 +103,6 @@ def _csv_cell(value):
     return value
 
 
-def caution_panel():
-    from rich.panel import Panel
-
-    return Panel(CAUTION, title="Caution", title_align="left", border_style="bold")
 
 
 # point rows that exist only at a resting steady state (not shown where there is none)
@@ -344,7 +335,7 @@ def plan_renderables(result, *, feet: bool = False, rule_sets=None):
     from .verdict import plan_verdict
 
     if rule_sets is None:
-        from .charts import applied_rule_sets
+        from .rules.applied import applied_rule_sets
 
         rule_sets, _missing = applied_rule_sets(result)
     out = [Text(result.name, style="bold"), Text(f"{result.kind.capitalize()} plan: {result.source or 'given as data'}"),
@@ -515,12 +506,12 @@ def people_extras_renderables(result, feet: bool = False) -> list:
             table.add_row(person["name"], str(worst["leg"]), central, spread, "yes" if worst["sleeping"] else "no")
         out.append(table)
     if result.extras.get("fitness_to_fly"):
-        from .cli_people import fitness_lines
+        from .render_people import fitness_lines
 
         out.append(Text("Fitness to fly (guidance; British Thoracic Society thresholds)\n"
                         + "\n".join(fitness_lines(result.extras["fitness_to_fly"]))))
     if result.extras.get("readings") is not None:
-        from .cli_people import readings_renderables
+        from .render_people import readings_renderables
 
         out.extend(readings_renderables(result.name, result.extras["readings"], [], feet=feet))
     return out
@@ -578,7 +569,7 @@ def plan_to_dict(result, *, timeline: bool = False, rule_sets=None) -> dict:
     from .verdict import plan_verdict
 
     if rule_sets is None:
-        from .charts import applied_rule_sets
+        from .rules.applied import applied_rule_sets
 
         rule_sets, _missing = applied_rule_sets(result)
     legs = []

@@ -6,7 +6,7 @@ Tables are sized for 80 columns.
 
 from __future__ import annotations
 
-from .render import caution_panel
+from .terminal import caution_panel
 
 __all__ = ["oxygen_review_renderables", "decompression_review_renderables", "target_renderables",
            "flow_renderables", "cylinder_renderables", "room_renderables", "decompression_renderables",

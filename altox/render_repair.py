@@ -14,7 +14,7 @@ def repair_renderables(original, repair, summary, *, written: str | None = None)
     from rich.table import Table
     from rich.text import Text
 
-    from .render import caution_panel
+    from .terminal import caution_panel
 
     out = []
     before, after = summary["before"], summary["after"]

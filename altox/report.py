@@ -21,6 +21,7 @@ from pathlib import Path
 
 from .errors import AltoxError
 from .render import CAUTION, FLAG_BROKEN, FLAG_LEGEND, FLAG_MET, KPA_PER_MMHG, _fmt_h, saturation_text, shown_leg, validity_mark
+from .outfiles import _same_file, check_output, write_atomic  # noqa: E402,F401  (re-exported)
 
 REPORT_SUFFIXES = (".html", ".htm")
 #: the Content-Security-Policy of every report: inline styles only, nothing fetched, no scripts
@@ -80,71 +81,10 @@ footer { margin-top: 1.6rem; }
 """
 
 
-# -- writing files ------------------------------------------------------------------------------
-def check_output(path, *, option: str, suffixes, force: bool = False, inputs=()) -> Path:
-    """Check that ``path`` may be written as an output of ``option``; return it as a Path.
-
-    Refused (AltoxError, one line naming the file): a suffix not in ``suffixes``; a folder that
-    does not exist; a directory; any of the ``inputs`` (the plan files, also through a link);
-    an existing file unless ``force``.
-    """
-    out = Path(path)
-    if out.suffix.lower() not in suffixes:
-        raise AltoxError(f"{option}: {str(out)!r} must end in {' or '.join(suffixes)}", field=option,
-                         value=str(out), expected=" or ".join(suffixes))
-    parent = out.parent if str(out.parent) else Path(".")
-    if not parent.is_dir():
-        raise AltoxError(f"{option}: {str(out)!r}: the folder {str(parent)!r} does not exist", field=option,
-                         value=str(out))
-    if out.is_dir():
-        raise AltoxError(f"{option}: {str(out)!r} is a folder; expected a file name", field=option,
-                         value=str(out))
-    for src in inputs:
-        if _same_file(out, Path(src)):
-            raise AltoxError(f"{option}: {str(out)!r} is the input plan {str(src)!r}; refusing to write over it",
-                             field=option, value=str(out))
-    if (out.exists() or out.is_symlink()) and not force:
-        raise AltoxError(f"{option}: {str(out)!r} already exists; use --force to replace it", field=option,
-                         value=str(out))
-    return out
 
 
-def _same_file(a: Path, b: Path) -> bool:
-    try:
-        if a.exists() and b.exists():
-            return os.path.samefile(a, b)
-    except OSError:
-        pass
-    return os.path.realpath(a) == os.path.realpath(b)
 
 
-def write_atomic(path, data: bytes) -> Path:
-    """Write ``data`` to a temporary file beside ``path`` and move it into place (``os.replace``).
-
-    Readers never see a half-written file; on any error the temporary file is removed and an
-    existing ``path`` is left as it was.  The new file gets the usual permissions (0666 less the
-    umask), not the private ones of a temporary file.  A symbolic link at ``path`` is replaced by
-    the file, never followed.
-    """
-    out = Path(path)
-    parent = out.parent if str(out.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{out.name}.", suffix=".tmp", dir=parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, out)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-    return out
 
 
 # -- the report -----------------------------------------------------------------------------------
@@ -376,7 +316,7 @@ def _people_extras(result) -> list[str]:
             parts.append(f'<p class="note">{_e(cav["text"])} [{_e(cav["source"])}]</p>')
     fit = result.extras.get("fitness_to_fly")
     if fit:
-        from .cli_people import fitness_lines
+        from .render_people import fitness_lines
 
         parts.append("<h3>Fitness to fly (guidance; British Thoracic Society thresholds)</h3>")
         parts.append('<ul class="plain">' + "".join(f"<li>{_e(line.strip())}</li>" for line in fitness_lines(fit))
@@ -673,7 +613,7 @@ def build_report(result, *, plan=None, feet: bool = False, rule_sets=None, rule_
         The user's own rule files, for rule sets that are not shipped with altox.
     """
     from . import __version__
-    from .charts import applied_rule_sets
+    from .rules.applied import applied_rule_sets
 
     missing: list[str] = []
     if rule_sets is None:

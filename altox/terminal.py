@@ -15,3 +15,11 @@ def console(**kwargs):
     from rich.console import Console
 
     return Console(markup=False, emoji=False, **kwargs)
+
+
+def caution_panel():
+    from rich.panel import Panel
+
+    from .rules.cautions import CAUTION
+
+    return Panel(CAUTION, title="Caution", title_align="left", border_style="bold")

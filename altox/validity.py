@@ -212,7 +212,7 @@ def tuc_text(altitude_ft) -> str:
     The range is widened outward when rounded (lower bound down, upper bound up), so the
     text never promises more time than the table. Below the table: ``'more than 30 min'``.
     """
-    from .decompression import TUC_BELOW, tuc_range_s
+    from .tuc import TUC_BELOW, tuc_range_s
 
     t = tuc_range_s(float(altitude_ft))
     lo, hi = float(t["min_s"]), float(t["max_s"])

@@ -7,8 +7,23 @@ Everything here is guidance only: it defers to the aviation authority, the opera
 procedures, local codes and licensed aviation or expedition medicine.
 """
 
-from .checker import Finding, check_flight, check_itinerary, risk_category
-from .loader import RuleSet, Threshold, available_rule_sets, load_rule_set
+from __future__ import annotations
+
+import importlib
+
+# imported on first use, so that the texts in altox.rules.cautions cost nothing to import
+_LAZY = {"Finding": "checker", "check_flight": "checker", "check_itinerary": "checker",
+         "risk_category": "checker", "RuleSet": "loader", "Threshold": "loader",
+         "available_rule_sets": "loader", "load_rule_set": "loader"}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        value = getattr(importlib.import_module(f"{__name__}.{_LAZY[name]}"), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
 
 __all__ = [
     "Finding", "RuleSet", "Threshold", "available_rule_sets", "check_flight",
