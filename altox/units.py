@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 import re
 
-from .errors import UnitError
+from altox.errors import UnitError
 
 # -- exact or defined conversion constants ----------------------------------------------
 M_PER_FT = 0.3048                    # international foot (1959), exact

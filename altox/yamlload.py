@@ -17,6 +17,8 @@ Python parser) and builds dicts, lists and scalars itself, with an explicit stac
 Every value's position is recorded in a :class:`PositionMap` keyed by its field path
 (``("days", 3, "sleep")``), so that schema errors found later can name ``file:line:column``.
 Timestamps are kept as the text written (a plan has no use for dates yet).
+
+Why this module is long: it is one reader: safe YAML with positions, the file checks (regular file, size, encoding) and the data-file loader share the same event-level parser and its error messages.
 """
 
 from __future__ import annotations
@@ -33,7 +35,7 @@ from yaml.constructor import SafeConstructor
 from yaml.nodes import ScalarNode
 from yaml.resolver import Resolver
 
-from .errors import ProfileError
+from altox.errors import ProfileError
 
 #: libyaml's safe loader when PyYAML was built with it (the same safe constructors, parsed in C)
 FAST_SAFE_LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)

@@ -9,8 +9,8 @@ import sys, time
 from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from fleet_probe import peak_rss_mb
-from altox.profile import load_plan_text
-from altox.population import expected_range
+from altox.plan.profile import load_plan_text
+from altox.evaluation.population import expected_range
 days = "\n".join(f"  - {{day: {d}, sleep: '{min(2800 + 300 * (d // 2), 5200)} m'}}" for d in range(1, 31))
 text = f"""kind: expedition
 name: benchmark month

@@ -87,7 +87,7 @@ def main(argv):
         write_fleet(folder, n)
         if "--jsonl" in argv:
             write_stream(folder)
-        from altox.fleet import review_plans, to_json_line, FleetSummary
+        from altox.evaluation.fleet import review_plans, to_json_line, FleetSummary
 
         summary = FleetSummary()
         cpu0 = time.process_time()

@@ -1,4 +1,4 @@
-"""Speed of ``altox fix`` (altox.repair): ratios against one evaluation of the same plan, in one run.
+"""Speed of ``altox fix`` (altox.evaluation.repair): ratios against one evaluation of the same plan, in one run.
 
 Run from the repository root:  python benchmarks/repair.py
 Prints a table and writes benchmarks/repair_results.json.  Timing never appears in a test.
@@ -36,9 +36,9 @@ def itinerary(n_days: int) -> str:
 
 
 def main() -> dict:
-    from altox.evaluate import evaluate_plan
-    from altox.profile import load_plan
-    from altox.repair import repair_plan
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.plan.profile import load_plan
+    from altox.evaluation.repair import repair_plan
 
     rows = []
     with tempfile.TemporaryDirectory() as tmp:

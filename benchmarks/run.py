@@ -90,8 +90,8 @@ def main(argv=None) -> dict:
     parser.add_argument("--quick", action="store_true", help="smaller sizes (10^5 points, 1,000 plans)")
     opts = parser.parse_args(argv)
     import altox
-    from altox.evaluate import evaluate_plan
-    from altox.profile import load_plan_text
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.plan.profile import load_plan_text
 
     n = 10**5 if opts.quick else 10**6
     rng = np.random.default_rng(1)

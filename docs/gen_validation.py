@@ -112,7 +112,7 @@ class Case:
 
 
 def _sleep_kwargs() -> dict:
-    from altox.individual import person_kwargs
+    from altox.evaluation.individual import person_kwargs
 
     return {"drive_scale": person_kwargs({}, sleeping=True)["drive_scale"]}
 
@@ -124,9 +124,9 @@ def _itinerary(text: str):
 
 def _exposures(row) -> list[tuple[dict, str]]:
     """The model keywords for the row's exposure (several for '|'-separated nights, averaged), and its text."""
-    from altox.acclimatization import acclimatization_history
-    from altox.atmosphere import barometric_pressure
-    from altox.gas_exchange import inspired_po2
+    from altox.physiology.acclimatization import acclimatization_history
+    from altox.physiology.atmosphere import barometric_pressure
+    from altox.physiology.gas_exchange import inspired_po2
 
     out = []
     if row.get("itinerary"):

@@ -19,7 +19,7 @@ ENV = {"COLUMNS": "100", "NO_COLOR": "1"}
 def run_cli(*args, env: dict | None = None, cwd: str | os.PathLike | None = None,
             input: str | None = None) -> subprocess.CompletedProcess:
     """``altox ARGS...`` in this process; returns ``returncode``, ``stdout`` and ``stderr``."""
-    from altox.cli import app
+    from altox.cli.main import app
 
     old = Path.cwd()
     if cwd is not None:

@@ -15,9 +15,9 @@ def render_demo(path: Path) -> dict:
     """A demo as ``altox plan`` sees it (members 20, fixed seed): result and every user format."""
     from rich.console import Console
 
-    from altox import render
-    from altox.cli import _load_and_evaluate
-    from altox.report import build_report
+    from altox.present import render as render
+    from altox.cli.main import _load_and_evaluate
+    from altox.present.report import build_report
 
     plan, result = _load_and_evaluate(str(path), [], members=20, seed=1)
     console = Console(width=80, file=io.StringIO(), record=True, color_system=None)

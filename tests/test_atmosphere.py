@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from altox import altitude_for_pressure, barometric_pressure
-from altox.atmosphere import pressure_altitude_ft, pressure_altitude_ft_to_mmhg
+from altox.physiology.atmosphere import pressure_altitude_ft, pressure_altitude_ft_to_mmhg
 from altox.errors import OutOfRangeError
 from altox.units import PA_PER_MMHG
 
@@ -96,8 +96,7 @@ def test_isa_layer_table_is_ambiances():
     # the embedded ICAO layer table and constants are exactly ambiance's (ambiance stays the reference)
     from ambiance.ambiance import CONST
 
-    from altox import atmosphere
-
+    from altox.physiology import atmosphere as atmosphere
     assert [tuple(row[:4]) for row in CONST.LAYER_SPEC_PROP] == list(atmosphere.ISA_LAYERS)
     assert (CONST.g_0, CONST.R, CONST.r) == (atmosphere.ISA_G0_M_S2, atmosphere.ISA_R_J_KG_K,
                                              atmosphere.ISA_EARTH_RADIUS_M)
@@ -107,7 +106,7 @@ def test_norm_quantiles_match_scipy():
     # the standard-library normal quantiles used for response categories equal scipy's ndtri/ndtr
     from scipy.special import ndtr, ndtri
 
-    from altox.individual import _norm_cdf, _norm_ppf
+    from altox.evaluation.individual import _norm_cdf, _norm_ppf
 
     p = np.linspace(0.001, 0.999, 501)
     np.testing.assert_allclose(_norm_ppf(p), ndtri(p), rtol=1e-12, atol=1e-12)
@@ -119,7 +118,7 @@ def test_closed_form_isa_equals_ambiance_over_its_whole_range():
     # the fast path must be ambiance's own formulas: identical within 1e-9 relative, -5004 to 81020 m
     from ambiance import Atmosphere
 
-    from altox.atmosphere import isa_altitude_for_pressure_m, isa_pressure_pa
+    from altox.physiology.atmosphere import isa_altitude_for_pressure_m, isa_pressure_pa
 
     h = np.linspace(-5004.0, 81020.0, 100001)
     np.testing.assert_allclose(isa_pressure_pa(h), Atmosphere(h).pressure, rtol=1e-9, atol=0.0)

@@ -1,7 +1,7 @@
 """Exact time in each cabin band: verdicts and minutes that do not depend on the sampling step.
 
 The checks run on the profile cut at the exact times the cabin crosses each threshold
-(:func:`altox.timeline.cabin_crossings`).  Held here: (1) every verdict, leg list, message and
+(:func:`altox.plan.timeline.cabin_crossings`).  Held here: (1) every verdict, leg list, message and
 minute count is the same at sample_every 10 s, 1 min, 2 min and 10 min, for every demo and for
 random plans; (2) the exact times agree with a brute-force 1-second sampling of the same profile
 to within one second per leg and threshold (a sample straddles at most one crossing of a
@@ -16,11 +16,11 @@ import pytest
 from hypothesis import HealthCheck, assume, given, settings, strategies as st
 
 from altox.errors import AltoxError
-from altox.evaluate import guidance_findings
-from altox.profile import load_plan, plan_from_data
-from altox.rules import available_rule_sets, load_rule_set
-from altox.rules.checker import in_band
-from altox.timeline import cabin_crossings, expand
+from altox.evaluation.evaluate import guidance_findings
+from altox.plan.profile import load_plan, plan_from_data
+from altox.guidance import available_rule_sets, load_rule_set
+from altox.guidance.checker import in_band
+from altox.plan.timeline import cabin_crossings, expand
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMOS = sorted((ROOT / "profiles").glob("*.yaml"))

@@ -4,8 +4,7 @@ import numpy as np
 import pytest
 from hypothesis import given, strategies as st
 
-from altox import blood
-
+from altox.physiology import blood as blood
 from refdata import number, rows
 
 

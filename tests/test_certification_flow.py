@@ -10,8 +10,8 @@ convention PtO2 = FiO2 (PB - 47); tolerances are rounding only (exact arithmetic
 
 import pytest
 
-from altox.decompression import certification_descent_oxygen_l
-from altox.oxygen import load_data
+from altox.evaluation.decompression import certification_descent_oxygen_l
+from altox.evaluation.oxygen import load_data
 from altox.units import M_PER_FT
 
 PA_PER_MMHG = 133.322387415
@@ -74,9 +74,9 @@ def test_passengers_need_nothing_at_or_below_10000_ft():
 def test_jet_demo_review_gives_litres_on_the_certification_basis():
     from pathlib import Path
 
-    from altox.evaluate import evaluate_plan
-    from altox.oxygen_plan import decompression_review
-    from altox.profile import load_plan
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.evaluation.oxygen_plan import decompression_review
+    from altox.plan.profile import load_plan
 
     plan = load_plan(Path(__file__).resolve().parents[1] / "profiles" / "jet-highcruise.yaml")
     review = decompression_review(plan, evaluate_plan(plan))

@@ -5,7 +5,7 @@ import pytest
 from hypothesis import given, settings, strategies as st
 
 import altox
-from altox.chain import ASSESS_KEYS
+from altox.physiology.chain import ASSESS_KEYS
 from altox.errors import OutOfRangeError
 
 ISSUE_KEYS = ("altitude_m", "atmosphere", "barometric_mmhg", "fio2", "inspired_po2_mmhg",
@@ -79,8 +79,7 @@ def test_fast_solver_matches_scalar_reference():
     # the vectorised Illinois solve against scipy's scalar brentq on the same residual, point by point
     from scipy.optimize import brentq
 
-    from altox import ventilation as v
-
+    from altox.physiology import ventilation as v
     rng = np.random.default_rng(7)
     pio2 = rng.uniform(35.0, 160.0, 200)
     fv = rng.uniform(0.0, 1.0, 200)

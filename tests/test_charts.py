@@ -1,4 +1,4 @@
-"""Charts of evaluated plans (altox.charts): files that decode, what they show, and how they are drawn."""
+"""Charts of evaluated plans (altox.present.charts): files that decode, what they show, and how they are drawn."""
 
 import os
 import struct
@@ -10,10 +10,10 @@ from pathlib import Path
 import pytest
 from clirun import run_cli
 
-from altox.charts import (CHART_DPI, CHART_SIZE_IN, applied_rule_sets, plan_figure, render_chart,
+from altox.present.charts import (CHART_DPI, CHART_SIZE_IN, applied_rule_sets, plan_figure, render_chart,
                           saturation_levels_pct, threshold_lines)
-from altox.evaluate import evaluate_plan
-from altox.profile import load_plan, load_plan_text
+from altox.evaluation.evaluate import evaluate_plan
+from altox.plan.profile import load_plan, load_plan_text
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMOS = sorted((ROOT / "profiles").glob("*.yaml"))
@@ -80,8 +80,8 @@ def test_pdf_is_a_pdf(results):
 
 
 def test_agg_canvas_and_no_display():
-    code = ("import sys; from altox.profile import load_plan; from altox.evaluate import evaluate_plan; "
-            "from altox.charts import plan_figure; "
+    code = ("import sys; from altox.plan.profile import load_plan; from altox.evaluation.evaluate import evaluate_plan; "
+            "from altox.present.charts import plan_figure; "
             "fig = plan_figure(evaluate_plan(load_plan(sys.argv[1]))); "
             "print(type(fig.canvas).__name__, 'matplotlib.pyplot' in sys.modules)")
     env = {k: v for k, v in ENV.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "MPLBACKEND")}
@@ -91,8 +91,8 @@ def test_agg_canvas_and_no_display():
 
 
 def test_plan_without_chart_imports_no_matplotlib():
-    code = ("import sys; from typer.testing import CliRunner; from altox.cli import app; import altox.charts, "
-            "altox.report; r = CliRunner().invoke(app, ['plan', sys.argv[1]]); assert r.exit_code == 0, r.output; "
+    code = ("import sys; from typer.testing import CliRunner; from altox.cli.main import app; import altox.present.charts, "
+            "altox.present.report; r = CliRunner().invoke(app, ['plan', sys.argv[1]]); assert r.exit_code == 0, r.output; "
             "print('matplotlib' in sys.modules)")
     proc = subprocess.run([sys.executable, "-c", code, str(DEMOS[0])], capture_output=True, text=True, env=ENV)
     assert proc.returncode == 0, proc.stderr
@@ -100,7 +100,7 @@ def test_plan_without_chart_imports_no_matplotlib():
 
 
 def test_threshold_lines_come_from_the_rule_data(results):
-    from altox.rules import load_rule_set
+    from altox.guidance import load_rule_set
 
     for demo in ("piston-ridge-crossing", "jet-highcruise", "medevac-transfer"):
         r = results[demo]

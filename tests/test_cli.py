@@ -92,7 +92,7 @@ def test_console_entry_point_smoke():
 
 def test_help_is_fast_path():
     # --help must not import the heavy modules
-    code = ("import sys; from altox.cli import app; from typer.testing import CliRunner; "
+    code = ("import sys; from altox.cli.main import app; from typer.testing import CliRunner; "
             "r = CliRunner().invoke(app, ['point', '--help']); assert r.exit_code == 0, r.output; "
             "bad = [m for m in ('scipy', 'ambiance', 'matplotlib', 'numpy') if m in sys.modules]; "
             "print(','.join(bad))")
@@ -104,7 +104,7 @@ def test_help_is_fast_path():
 def test_every_command_has_help_and_is_documented():
     from pathlib import Path
 
-    from altox.cli import app
+    from altox.cli.main import app
 
     readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
     for command in app.registered_commands:

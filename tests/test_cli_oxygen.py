@@ -1,4 +1,4 @@
-"""The oxygen commands, driven through the real app after importing altox.cli_oxygen; and the plan sections."""
+"""The oxygen commands, driven through the real app after importing altox.cli.oxygen; and the plan sections."""
 
 import json
 import os
@@ -9,7 +9,7 @@ import pytest
 from clirun import run_cli
 
 ENV = {**os.environ, "COLUMNS": "80", "NO_COLOR": "1"}
-RUN = "import altox.cli_oxygen, altox.cli as c; c.main()"
+RUN = "import altox.cli.oxygen, altox.cli.main as c; c.main()"
 
 
 def run(*args):
@@ -19,8 +19,8 @@ def run(*args):
 def invoke(*args):
     from typer.testing import CliRunner
 
-    import altox.cli_oxygen  # noqa: F401  registers the commands
-    from altox.cli import app
+    import altox.cli.oxygen  # noqa: F401  registers the commands
+    from altox.cli.main import app
 
     return CliRunner().invoke(app, list(args), env={"COLUMNS": "80", "NO_COLOR": "1"})
 
@@ -90,7 +90,7 @@ def test_bad_input_one_error_line_exit_2(args, needle):
 
 
 def test_help_does_not_import_numpy():
-    code = ("import sys, altox.cli_oxygen, altox.cli; "
+    code = ("import sys, altox.cli.oxygen, altox.cli.main; "
             "bad = [m for m in ('scipy', 'ambiance', 'matplotlib', 'numpy') if m in sys.modules]; print(bad)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=ENV).stdout
     assert out.strip() == "[]"
@@ -102,11 +102,11 @@ def test_plan_sections_render(name):
 
     from rich.console import Console
 
-    from altox.evaluate import evaluate_plan
-    from altox.oxygen_plan import decompression_review, oxygen_review
-    from altox.profile import load_plan
-    from altox.render import to_json
-    from altox.render_oxygen import plan_sections
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.evaluation.oxygen_plan import decompression_review, oxygen_review
+    from altox.plan.profile import load_plan
+    from altox.present.render import to_json
+    from altox.present.render_oxygen import plan_sections
 
     plan = load_plan(Path(__file__).parent.parent / "profiles" / name)
     result = evaluate_plan(plan)

@@ -30,8 +30,8 @@ def test_plan_demo_tables(demo):
 
 
 def test_plan_json_matches_library():
-    from altox.evaluate import evaluate_plan
-    from altox.profile import load_plan
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.plan.profile import load_plan
 
     demo = ROOT / "profiles" / "trek-teskavor-fast.yaml"
     data = json.loads(run("plan", str(demo), "--json").stdout)

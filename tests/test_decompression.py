@@ -1,9 +1,9 @@
-"""Decompression: TUC table, descent times, descent oxygen (altox.decompression)."""
+"""Decompression: TUC table, descent times, descent oxygen (altox.evaluation.decompression)."""
 
 import numpy as np
 import pytest
 
-from altox.decompression import (TUC_ABOVE, TUC_BELOW, descent_oxygen_l, descent_time_min,
+from altox.evaluation.decompression import (TUC_ABOVE, TUC_BELOW, descent_oxygen_l, descent_time_min,
                                  oxygen_free_altitudes_ft, tuc_range_s)
 from refdata import number, rows
 
@@ -39,7 +39,7 @@ def test_descent_times():
 
 
 def test_oxygen_free_altitudes_from_rule_sets():
-    from altox.rules import load_rule_set
+    from altox.guidance import load_rule_set
 
     f = oxygen_free_altitudes_ft([load_rule_set("us-14cfr-91")])
     assert f["crew"] == 14000.0 and f["passengers"] == 15000.0  # 91.211(a)(2), (a)(3)

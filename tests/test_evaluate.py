@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from altox.evaluate import evaluate_plan
-from altox.profile import load_plan_text
+from altox.evaluation.evaluate import evaluate_plan
+from altox.plan.profile import load_plan_text
 
 
 def _trek(days_yaml: str, start="1,400 m", party="") -> str:
@@ -138,7 +138,7 @@ def test_legs_beyond_the_validated_range_are_marked():
 def test_demo_plans_stay_inside_the_model():
     from pathlib import Path
 
-    from altox.profile import load_plan
+    from altox.plan.profile import load_plan
 
     for path in sorted((Path(__file__).resolve().parents[1] / "profiles").glob("*.yaml")):
         r = evaluate_plan(load_plan(path))
@@ -149,8 +149,8 @@ def test_demo_plans_stay_inside_the_model():
 def test_medevac_summary_table_and_chart_describe_the_patient():
     import numpy as np
 
-    from altox.evaluate import evaluate_plan
-    from altox.profile import load_plan
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.plan.profile import load_plan
 
     r = evaluate_plan(load_plan("profiles/medevac-transfer.yaml"))
     subj = r.summary["subject"]
@@ -170,8 +170,8 @@ def test_medevac_summary_table_and_chart_describe_the_patient():
 
 
 def test_plan_without_patient_keeps_the_reference_adult():
-    from altox.evaluate import evaluate_plan
-    from altox.profile import load_plan
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.plan.profile import load_plan
 
     r = evaluate_plan(load_plan("profiles/trek-teskavor.yaml"))
     assert r.summary["subject"]["name"] == "reference adult"

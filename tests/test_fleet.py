@@ -1,4 +1,4 @@
-"""Fleet review (`altox review`, :mod:`altox.fleet`) on a small invented fleet of demo variants."""
+"""Fleet review (`altox review`, :mod:`altox.evaluation.fleet`) on a small invented fleet of demo variants."""
 
 import csv
 import io
@@ -9,10 +9,10 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from altox import fleet
-from altox.cli import app
-from altox.evaluate import evaluate_plan
-from altox.profile import load_plan
+from altox.evaluation import fleet as fleet
+from altox.cli.main import app
+from altox.evaluation.evaluate import evaluate_plan
+from altox.plan.profile import load_plan
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMOS = ROOT / "profiles"

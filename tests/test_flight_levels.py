@@ -8,10 +8,10 @@ exception of 91.211(b)(1)(ii) holds "at or below flight level 410").
 import numpy as np
 import pytest
 
-from altox.evaluate import guidance_findings, select_rule_sets
-from altox.profile import load_plan_text
-from altox.rules import load_rule_set
-from altox.rules.checker import check_flight_levels
+from altox.evaluation.evaluate import guidance_findings, select_rule_sets
+from altox.plan.profile import load_plan_text
+from altox.guidance import load_rule_set
+from altox.guidance.checker import check_flight_levels
 
 
 def _check(ft, rule_set, *, use="none", pressurized=True, pilots=1, quick=False, carried_h=None):

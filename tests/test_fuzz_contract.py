@@ -16,10 +16,10 @@ import typer.main
 from hypothesis import HealthCheck, given, settings, strategies as st
 from typer.testing import CliRunner
 
-from altox.cli import app
+from altox.cli.main import app
 from altox.errors import AltoxError, ProfileError
-from altox.profile import load_plan_text
-from altox.rules.loader import load_rule_set
+from altox.plan.profile import load_plan_text
+from altox.guidance.loader import load_rule_set
 from test_rules import _GOOD_USER_FILE
 
 RUN = CliRunner()
@@ -259,7 +259,7 @@ def test_every_option_hostile(name, tmp_path):
 def test_assess_random_arrays_stay_in_range():
     """The core over random broadcast arrays (one property; the full element-by-element check is in
     tests/test_hostile_core.py)."""
-    from altox.chain import assess
+    from altox.physiology.chain import assess
 
     rng = np.random.default_rng(3)
     r = assess(rng.uniform(-500, 19000, (4, 1, 50)), fio2=rng.uniform(0.05, 1.0, (1, 3, 1)),

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from altox import alveolar_po2, equivalent_altitude, inspired_po2, water_vapour_pressure
-from altox.gas_exchange import arterial_po2, sea_level_aado2, shunt_fraction_for_age
+from altox.physiology.gas_exchange import arterial_po2, sea_level_aado2, shunt_fraction_for_age
 from altox.units import M_PER_FT
 
 
@@ -70,7 +70,7 @@ def test_arterial_never_above_alveolar():
 def test_content_inversion_fallback_on_two_dimensional_input():
     # elements Newton cannot settle (no PO2 has a negative content) take the bracketed path by their
     # flat index, also when the input is 2-D (people x samples)
-    from altox.gas_exchange import _po2_for_content, _po2_for_content_safeguarded
+    from altox.physiology.gas_exchange import _po2_for_content, _po2_for_content_safeguarded
 
     content = np.array([[15.0, -0.1, -0.2], [18.0, -1.0, 10.0]])
     upper = np.full(content.shape, 100.0)

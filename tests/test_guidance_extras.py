@@ -5,8 +5,8 @@ import json
 import pytest
 from typer.testing import CliRunner
 
-from altox.cli import app
-from altox.rules.checker import risk_category
+from altox.cli.main import app
+from altox.guidance.checker import risk_category
 
 
 # -- WMS risk table, very rapid ascent (Luks 2019 and 2024 table: "very rapid ascents, e.g. < 7 day

@@ -13,10 +13,10 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from altox.cli import app
-from altox.evaluate import DEFAULT_RULES, RULE_KIND_FOR_PLAN, select_rule_sets
-from altox.profile import load_plan_text
-from altox.rules import load_rule_set
+from altox.cli.main import app
+from altox.evaluation.evaluate import DEFAULT_RULES, RULE_KIND_FOR_PLAN, select_rule_sets
+from altox.plan.profile import load_plan_text
+from altox.guidance import load_rule_set
 
 ROOT = Path(__file__).resolve().parents[1]
 

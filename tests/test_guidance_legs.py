@@ -8,7 +8,7 @@ from pathlib import Path
 
 from typer.testing import CliRunner
 
-from altox.cli import app
+from altox.cli.main import app
 
 ROOT = Path(__file__).resolve().parents[1]
 PISTON = str(ROOT / "profiles" / "piston-ridge-crossing.yaml")

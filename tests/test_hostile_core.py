@@ -10,8 +10,8 @@ import pytest
 from hypothesis import given, settings, strategies as st
 from typer.testing import CliRunner
 
-from altox.chain import ASSESS_KEYS, assess
-from altox.cli import app
+from altox.physiology.chain import ASSESS_KEYS, assess
+from altox.cli.main import app
 
 RUN = CliRunner()
 

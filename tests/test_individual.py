@@ -7,8 +7,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from altox import individual as ind
-from altox.chain import assess
+from altox.evaluation import individual as ind
+from altox.physiology.chain import assess
 from altox.units import MMHG_PER_KPA
 
 
@@ -79,7 +79,7 @@ def test_person_kwargs_factors():
 
 
 def test_people_kwargs_broadcast_with_samples():
-    from altox.profile import load_plan
+    from altox.plan.profile import load_plan
 
     plan = load_plan("profiles/trek-teskavor.yaml")
     kw = ind.people_kwargs(plan.party, sleeping=np.array([True, False, False]))
@@ -250,8 +250,8 @@ def test_paediatric_path():
 def test_fitness_command_one_verdict_and_cabin_conflict():
     from typer.testing import CliRunner
 
-    import altox.cli_people  # noqa: F401
-    from altox.cli import app
+    import altox.cli.people  # noqa: F401
+    from altox.cli.main import app
 
     res = CliRunner().invoke(app, ["fitness-to-fly", "profiles/medevac-transfer.yaml"])
     assert res.exit_code == 0, res.output

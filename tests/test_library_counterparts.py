@@ -11,9 +11,9 @@ ndtri in tests/test_atmosphere.py.
 import numpy as np
 import pytest
 
-from altox import blood
-from altox import gas_exchange as ge
-from altox.sampling import Knots
+from altox.physiology import blood as blood
+from altox.physiology import gas_exchange as ge
+from altox.evaluation.sampling import Knots
 
 
 def test_cardano_inverse_of_the_severinghaus_curve_against_brentq():

@@ -4,12 +4,14 @@ the first outside is refused with exit status 2 and a message naming the limit."
 import pytest
 from typer.testing import CliRunner
 
-from altox import population, profile
-from altox.cli import MAX_SEED, app, check_seed
-from altox.cli_people import _check_members
+from altox.evaluation import population as population
+
+from altox.plan import profile as profile
+from altox.cli.main import MAX_SEED, app, check_seed
+from altox.cli.people import _check_members
 from altox.errors import AltoxError, OutOfRangeError, ProfileError
-from altox.profile import load_plan, load_plan_text
-from altox.rules.loader import MAX_RULE_BYTES, load_rule_set
+from altox.plan.profile import load_plan, load_plan_text
+from altox.guidance.loader import MAX_RULE_BYTES, load_rule_set
 from altox.yamlload import MAX_DEPTH, MAX_PLAN_BYTES
 from test_rules import _GOOD_USER_FILE
 
@@ -128,7 +130,7 @@ def test_person_samples():
 
 def test_ensemble_solves():
     plan = load_plan_text(_expedition(days=2, people=1))
-    from altox.timeline import expand
+    from altox.plan.timeline import expand
 
     knots = len(population._knots_of(expand(plan)))
     fits = population.MAX_ENSEMBLE_SOLVES // (2 * knots)

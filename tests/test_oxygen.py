@@ -1,4 +1,4 @@
-"""Supplemental oxygen: targets, device FiO2, ventilation by activity, cylinders (altox.oxygen)."""
+"""Supplemental oxygen: targets, device FiO2, ventilation by activity, cylinders (altox.evaluation.oxygen)."""
 
 import math
 
@@ -7,10 +7,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from altox import oxygen as ox
-from altox.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
+from altox.evaluation import oxygen as ox
+from altox.physiology.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
 from altox.errors import AltoxError
-from altox.gas_exchange import AIR_FIO2
+from altox.physiology.gas_exchange import AIR_FIO2
 
 
 def test_cannula_rule_of_thumb_at_sea_level():
@@ -51,7 +51,7 @@ def test_activity_raises_ventilation():
     (10000.0, 39000.0, 40700.0),
 ])
 def test_ceiling_of_100_percent_oxygen(target_ft, lo, hi):
-    from altox.oxygen import _assess
+    from altox.evaluation.oxygen import _assess
 
     pa_target = float(_assess(pressure_altitude_ft_to_mmhg(target_ft), AIR_FIO2)["alveolar_po2_mmhg"])
     r = ox.fio2_for_target(pressure_altitude_ft_to_mmhg(30000.0), alveolar_po2_mmhg=pa_target)
@@ -178,9 +178,9 @@ def _trek(n_oxygen_days: int) -> str:
 @settings(max_examples=6, deadline=None)
 @given(st.integers(1, 12), st.integers(1, 12))
 def test_cylinder_count_never_falls_as_the_plan_lengthens(a, b):
-    from altox.evaluate import evaluate_plan
-    from altox.oxygen_plan import oxygen_review
-    from altox.profile import load_plan_text
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.evaluation.oxygen_plan import oxygen_review
+    from altox.plan.profile import load_plan_text
 
     short, long = sorted((a, b))
     counts = []
@@ -191,9 +191,9 @@ def test_cylinder_count_never_falls_as_the_plan_lengthens(a, b):
 
 
 def test_oxygen_review_of_a_trek_with_oxygen():
-    from altox.evaluate import evaluate_plan
-    from altox.oxygen_plan import oxygen_review
-    from altox.profile import load_plan_text
+    from altox.evaluation.evaluate import evaluate_plan
+    from altox.evaluation.oxygen_plan import oxygen_review
+    from altox.plan.profile import load_plan_text
 
     plan = load_plan_text(_trek(3))
     rev = oxygen_review(plan, evaluate_plan(plan))

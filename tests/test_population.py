@@ -7,11 +7,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from altox import population as pop
-from altox.chain import assess
+from altox.evaluation import population as pop
+from altox.physiology.chain import assess
 from altox.errors import OutOfRangeError
-from altox.individual import coefficients
-from altox.profile import load_plan
+from altox.evaluation.individual import coefficients
+from altox.plan.profile import load_plan
 
 N = 4000  # members for the calibration checks (sampling error of the SD about 1 %)
 

@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from altox.errors import ProfileError, UnitError
-from altox.profile import (ExpeditionPlan, FlightPlan, load_plan, load_plan_text, parse_flow,
+from altox.plan.profile import (ExpeditionPlan, FlightPlan, load_plan, load_plan_text, parse_flow,
                            parse_hemoglobin, parse_vertical_speed, plan_from_data,
                            plan_json_schema)
 from altox.yamlload import MAX_PLAN_BYTES

@@ -8,9 +8,11 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from altox import population, readings
+from altox.evaluation import population as population
+
+from altox.evaluation import readings as readings
 from altox.errors import OutOfRangeError, ProfileError
-from altox.profile import load_plan, load_plan_text
+from altox.plan.profile import load_plan, load_plan_text
 
 
 # -- Lake Louise 2018 -----------------------------------------------------------------------------------
@@ -111,8 +113,8 @@ def test_observation_errors_name_the_field():
 
 # -- commands --------------------------------------------------------------------------------------------------
 def _app():
-    import altox.cli_people  # noqa: F401  registers the commands
-    from altox.cli import app
+    import altox.cli.people  # noqa: F401  registers the commands
+    from altox.cli.main import app
 
     return app
 
@@ -241,8 +243,10 @@ def test_symptom_words_and_errors():
 def test_plan_range_and_readings_share_one_default_and_agree(tmp_path):
     import inspect
 
-    from altox import cli, cli_people
-    from altox.defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
+    from altox.cli import main as cli
+
+    from altox.cli import people as cli_people
+    from altox.evaluation.defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 
     for fn in (cli.plan, cli_people.readings_cmd, cli_people.range_cmd):
         params = inspect.signature(fn).parameters
@@ -287,6 +291,6 @@ def test_a_child_reading_is_marked_extrapolated():
 
 
 def readings_text(name, rows):
-    from altox.cli_people import readings_renderables
+    from altox.cli.people import readings_renderables
 
     return [p for p in readings_renderables(name, rows, []) if not hasattr(p, "columns")]

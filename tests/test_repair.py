@@ -14,10 +14,10 @@ from typer.testing import CliRunner
 
 pytest.importorskip("ruamel.yaml", reason="ruamel.yaml (a dependency of altox) not installed; pip install -e .")
 
-from altox import repair as rp  # noqa: E402
-from altox.cli import app  # noqa: E402
-from altox.evaluate import evaluate_plan  # noqa: E402
-from altox.profile import load_plan, load_plan_text  # noqa: E402
+from altox.evaluation import repair as rp
+from altox.cli.main import app  # noqa: E402
+from altox.evaluation.evaluate import evaluate_plan  # noqa: E402
+from altox.plan.profile import load_plan, load_plan_text  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMOS = sorted((ROOT / "profiles").glob("trek-teskavor*.yaml"))
@@ -301,9 +301,9 @@ def test_flight_demo_breaking_91_211a_is_repaired(tmp_path):
 
 
 def test_flight_repair_is_minimal_brute_force_agrees(tmp_path):
-    from altox import repair_flight as rf
-    from altox.evaluate import _rule_sets, guidance_findings
-    from altox.profile import plan_from_data
+    from altox.evaluation import repair_flight as rf
+    from altox.evaluation.evaluate import _rule_sets, guidance_findings
+    from altox.plan.profile import plan_from_data
     from altox.yamlload import parse_yaml
 
     path = tmp_path / "f.yaml"

@@ -1,4 +1,4 @@
-"""The HTML report (altox.report): its content, safe writing, and how it looks in a real browser.
+"""The HTML report (altox.present.report): its content, safe writing, and how it looks in a real browser.
 
 The browser tests open each demo plan's report in headless Chromium (Debian's ``chromium``,
 installed by ``.ci/run`` because ``.ci/needs-chromium`` exists) as a person would:
@@ -37,17 +37,17 @@ from pathlib import Path
 import pytest
 from clirun import run_cli as _run_in_process
 
-from altox.evaluate import evaluate_plan
-from altox.profile import load_plan, load_plan_text
-from altox.render import CAUTION
-from altox.report import CSP, build_report, check_output, write_atomic
+from altox.evaluation.evaluate import evaluate_plan
+from altox.plan.profile import load_plan, load_plan_text
+from altox.present.render import CAUTION
+from altox.present.report import CSP, build_report, check_output, write_atomic
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMOS = sorted((ROOT / "profiles").glob("*.yaml"))
 ENV = {**os.environ, "COLUMNS": "80", "NO_COLOR": "1"}
 PRINT_WIDTH_PX = 680          # A4 (210 mm) less 2 x 12 mm margins is 703 CSS px; Letter is wider
 FIRST_SCREEN = (1280, 900)
-CAUTION_BG = (0xFF, 0xF6, 0xE5)   # .caution background in altox/report.py
+CAUTION_BG = (0xFF, 0xF6, 0xE5)   # .caution background in altox/present/report.py
 CAUTION_EDGE = (0x7A, 0x4A, 0x00)
 
 
@@ -125,8 +125,8 @@ def test_report_content_and_order(reports, demo):
     assert text.rstrip().endswith("</html>") and text.rindex(caution) > text.index('id="assumptions"')
     for section in ("summary", "chart", "people", "legs", "guidance", "assumptions"):
         assert f'id="{section}"' in text
-    # the oxygen and decompression sections where the plan has them (altox.oxygen_plan)
-    from altox.oxygen_plan import decompression_review, oxygen_review
+    # the oxygen and decompression sections where the plan has them (altox.evaluation.oxygen_plan)
+    from altox.evaluation.oxygen_plan import decompression_review, oxygen_review
 
     plan = load_plan(ROOT / "profiles" / f"{demo}.yaml")
     ox, dec = oxygen_review(plan, result), decompression_review(plan, result)

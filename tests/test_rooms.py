@@ -1,10 +1,10 @@
-"""Enriched and hypoxic rooms (altox.rooms)."""
+"""Enriched and hypoxic rooms (altox.evaluation.rooms)."""
 
 import numpy as np
 import pytest
 
-from altox.gas_exchange import AIR_FIO2
-from altox.rooms import room_atmosphere_check, room_equivalent_altitude, room_o2_fraction
+from altox.physiology.gas_exchange import AIR_FIO2
+from altox.evaluation.rooms import room_atmosphere_check, room_equivalent_altitude, room_o2_fraction
 
 
 @pytest.mark.parametrize("site_m", [4000.0, 4500.0, 5000.0])

@@ -1,4 +1,4 @@
-"""Tests of the guidance rule sets (altox/data/rules) and the pure checker (altox.rules).
+"""Tests of the guidance rule sets (altox/data/rules) and the pure checker (altox.guidance).
 
 Each shipped threshold gets a plan that just complies and one that just breaks it; the test
 ids name the rule set and the section of the source (e.g. ``us-14cfr-91:91.211(a)(1)``).
@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from altox.errors import AltoxError, ProfileError
-from altox.rules import (Finding, available_rule_sets, check_flight, check_itinerary,
+from altox.guidance import (Finding, available_rule_sets, check_flight, check_itinerary,
                          load_rule_set, risk_category)
 
 MIN = 1.0 / 60.0

@@ -1,8 +1,8 @@
 """Fast paths along a timeline equal the reference paths.
 
-* ``altox.sampling``: the chain solved at knots and interpolated in time, against the chain
+* ``altox.evaluation.sampling``: the chain solved at knots and interpolated in time, against the chain
   solved at every sample (the reference), on the demo plans at one-minute sampling.
-* ``altox.acclimatization``: the closed form per run of constant altitude, against the
+* ``altox.physiology.acclimatization``: the closed form per run of constant altitude, against the
   per-sample first-order recurrence written out here (the reference).
 """
 
@@ -13,16 +13,16 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-import altox.evaluate as evaluate_module
-from altox import population as pop
-from altox.acclimatization import acclimatization_history
-from altox.atmosphere import SEA_LEVEL_MMHG
-from altox.chain import assess
-from altox.gas_exchange import inspired_po2
-from altox.profile import load_plan_text
-from altox.sampling import Knots, assess_along
-from altox.timeline import expand
-from altox.ventilation import acclimatization_fractions, default_parameters
+import altox.evaluation.evaluate as evaluate_module
+from altox.evaluation import population as pop
+from altox.physiology.acclimatization import acclimatization_history
+from altox.physiology.atmosphere import SEA_LEVEL_MMHG
+from altox.physiology.chain import assess
+from altox.physiology.gas_exchange import inspired_po2
+from altox.plan.profile import load_plan_text
+from altox.evaluation.sampling import Knots, assess_along
+from altox.plan.timeline import expand
+from altox.physiology.ventilation import acclimatization_fractions, default_parameters
 
 
 def _resampled(path, every):
@@ -122,7 +122,7 @@ def test_assess_along_flags_are_conservative():
 
 
 def test_ensemble_on_knots_equals_every_sample(monkeypatch):
-    import altox.sampling as sampling
+    import altox.evaluation.sampling as sampling
 
     plan = _resampled("profiles/trek-teskavor-fast.yaml", "5 min")
     fast = pop.expected_range(plan, n=40, seed=3)

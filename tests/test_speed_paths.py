@@ -7,9 +7,7 @@ Each test names the fast path and the reference it is held to; timing is never a
 import numpy as np
 import pytest
 
-from altox import ventilation as v
-
-
+from altox.physiology import ventilation as v
 def _bracketed_reference(pio2, fio2, fv, fr, **kw):
     """The robust path alone (Illinois regula falsi on the whole bracket) on the same residual."""
     pio2_a, state, _ = v._make_state(pio2, fio2, 0.8, fv, fr, kw.get("metabolic_ratio", 1.0),
@@ -84,8 +82,8 @@ def test_no_steady_state_below_the_cliff_is_flagged_and_above_converges():
 
 def test_content_inversion_fast_path_matches_safeguarded_newton():
     # Newton without a bracket (checked at the result) vs the bracketed Newton, PO2 for a content
-    from altox import blood, gas_exchange as ge
-
+    from altox.physiology import blood as blood
+    from altox.physiology import gas_exchange as ge
     rng = np.random.default_rng(5)
     n = 5000
     hb = rng.uniform(8.0, 20.0, n)
@@ -125,9 +123,9 @@ def test_assess_range_check_still_raises_with_measured_pressure():
 
 def test_cached_pressure_spans_and_rule_figures_equal_fresh_computation():
     """The pressure span of each atmosphere and the rule thresholds' figures are computed once; same values."""
-    import altox.atmosphere as atm
-    from altox.rules import available_rule_sets, load_rule_set
-    from altox.rules.loader import _altitude_ft
+    import altox.physiology.atmosphere as atm
+    from altox.guidance import available_rule_sets, load_rule_set
+    from altox.guidance.loader import _altitude_ft
 
     for name, (top, bottom) in (("isa", (atm.ISA_MAX_M, atm.ISA_MIN_M)),
                                 ("mountain", (atm.MOUNTAIN_MAX_M, atm.MOUNTAIN_MIN_M))):

@@ -9,9 +9,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from altox.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
-from altox.profile import load_plan, load_plan_text, plan_from_data
-from altox.timeline import (OXYGEN_ALL, OXYGEN_CREW, OXYGEN_NONE, OXYGEN_PATIENT, Timeline,
+from altox.physiology.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
+from altox.plan.profile import load_plan, load_plan_text, plan_from_data
+from altox.plan.timeline import (OXYGEN_ALL, OXYGEN_CREW, OXYGEN_NONE, OXYGEN_PATIENT, Timeline,
                             expand)
 from altox.units import M_PER_FT, PA_PER_MMHG, PA_PER_PSI
 

@@ -118,7 +118,7 @@ def test_the_answer_comes_first(demo_outputs, demo):
 
 @pytest.mark.parametrize("demo", [p.stem for p in DEMOS])
 def test_json_sections_follow_the_terminal_order(demo_outputs, demo):
-    from altox.render import JSON_SECTIONS
+    from altox.present.render import JSON_SECTIONS
 
     data = json.loads(demo_outputs[demo]["json"])
     keys = [k for k in data if k in JSON_SECTIONS]
@@ -159,7 +159,7 @@ def test_nothing_is_cut_short_at_80_columns(demo_outputs, demo):
 def test_one_legend_in_terminal_report_and_docs(demo_outputs, demo):
     import html
 
-    from altox.legend import glossary_markdown, terms_for
+    from altox.present.legend import glossary_markdown, terms_for
 
     out = demo_outputs[demo]
     kind = out["result"].kind
@@ -168,7 +168,7 @@ def test_one_legend_in_terminal_report_and_docs(demo_outputs, demo):
         assert _flat(f"{term}: {definition}") in terminal
         assert f"<dt>{html.escape(term)}</dt><dd>{html.escape(definition)}</dd>" in report
     assert (ROOT / "docs" / "glossary.md").read_text() == glossary_markdown(), \
-        "docs/glossary.md is stale: python -m altox.legend > docs/glossary.md"
+        "docs/glossary.md is stale: python -m altox.present.legend > docs/glossary.md"
     # no code or slug as a flag: the flags are the legend's words
     for leg in json.loads(out["json"])["legs"]:
         for flag in leg["flags"]:
@@ -179,7 +179,7 @@ def test_one_legend_in_terminal_report_and_docs(demo_outputs, demo):
 def test_feet_converts_the_altitudes_and_flights_never_show_negative_altitudes(demo_outputs):
     from rich.console import Console
 
-    from altox import render
+    from altox.present import render as render
     from altox.units import label_in_unit, shown_equivalent_altitude
 
     assert shown_equivalent_altitude(-1447.5, feet=True) == "hyperoxic"
@@ -214,7 +214,7 @@ def test_oxygen_on_and_off_is_shown_where_planned(demo_outputs, demo):
 def test_chart_labels_do_not_overlap(demo_outputs, demo):
     """Every text of the chart (titles, threshold labels, flags, level marks, the peak, axis
     labels, the legend's entries) has its own place: no two bounding boxes overlap."""
-    from altox.charts import plan_figure
+    from altox.present.charts import plan_figure
 
     fig = plan_figure(demo_outputs[demo]["result"])
     fig.canvas.draw()
@@ -241,7 +241,7 @@ def test_chart_labels_do_not_overlap(demo_outputs, demo):
 
 
 def test_flight_chart_time_is_hours_and_minutes(demo_outputs):
-    from altox.charts import _h_min, plan_figure
+    from altox.present.charts import _h_min, plan_figure
 
     assert _h_min(1.5) == "1:30" and _h_min(0.25) == "0:15" and _h_min(3.999) == "4:00"
     fig = plan_figure(demo_outputs["piston-ridge-crossing"]["result"])

@@ -1,4 +1,4 @@
-"""Whether a number is a prediction: altox.validity, assess and `altox point`.
+"""Whether a number is a prediction: altox.physiology.validity, assess and `altox point`.
 
 Limits and their sources (altox/data/validity.yaml):
 - no steady state on acute exposure from 20,000 ft: FAA Aeronautical Information Manual
@@ -21,11 +21,11 @@ import pytest
 from typer.testing import CliRunner
 
 from altox import assess
-from altox.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
-from altox.cli import app
-from altox.gas_exchange import inspired_po2
+from altox.physiology.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
+from altox.cli.main import app
+from altox.physiology.gas_exchange import inspired_po2
 from altox.units import M_PER_FT
-from altox.validity import (ACUTE_ABOVE_DATA, AGE_OUTSIDE_DATA, BELOW_FLOOR, EXTRAPOLATED, NO_SOLUTION,
+from altox.physiology.validity import (ACUTE_ABOVE_DATA, AGE_OUTSIDE_DATA, BELOW_FLOOR, EXTRAPOLATED, NO_SOLUTION,
                             NO_STEADY_STATE, TUC_REGIME, VALIDATED, air_equivalent_altitude_ft, classify,
                             limits, time_limited_text, tuc_text, validity_notes)
 
@@ -97,7 +97,7 @@ def test_limits_come_from_the_data_file():
     assert lim["no_steady_state_min_altitude_ft"] == 20000.0      # FAA AIM 8-1-2 a.3
     assert lim["acute_validated_max_m"] == 5000.0
     # 7 days at a constant altitude with the model's ventilatory time constant
-    from altox.ventilation import acclimatization_fractions
+    from altox.physiology.ventilation import acclimatization_fractions
     assert lim["acclimatized_min_fraction"] == pytest.approx(float(acclimatization_fractions(7.0)[0]))
 
 

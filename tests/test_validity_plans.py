@@ -15,8 +15,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from altox.evaluate import evaluate_plan
-from altox.profile import load_plan
+from altox.evaluation.evaluate import evaluate_plan
+from altox.plan.profile import load_plan
 from clirun import run_cli
 
 FIXTURE = Path(__file__).resolve().parent / "fixtures" / "cabin-failure-fl390.yaml"
@@ -68,7 +68,7 @@ def test_terminal_never_shows_a_saturation_for_the_leg():
     assert len(per_person) == 4 and all(" none " in line for line in per_person)
     row = next(line for line in out.splitlines() if line.strip("│ ").startswith(f"{FAILURE_LEG} ")
                and "none" in line)
-    assert "outside" in row   # the flag word (altox.legend)
+    assert "outside" in row   # the flag word (altox.present.legend)
     assert f"Leg {FAILURE_LEG}: no steady state: time of useful consciousness 17-25 s." in out
     people = [line for line in out.splitlines() if any(n in line for n in ("Mira Tolland", "Jory Falk", "Pim Falk"))
               and "│" in line]
@@ -103,7 +103,7 @@ def test_json_and_csv_carry_validity_and_no_saturation():
 
 
 def test_report_and_chart_show_the_gap(tmp_path, failed):
-    from altox.report import build_report
+    from altox.present.report import build_report
 
     html = build_report(failed)
     summary = html[html.index('id="summary"'):html.index("</section>", html.index('id="summary"'))]
@@ -113,7 +113,7 @@ def test_report_and_chart_show_the_gap(tmp_path, failed):
     legs = html[html.index('id="legs"'):]
     assert "no steady state: time of useful consciousness 17-25 s" in legs
 
-    from altox.charts import plan_figure
+    from altox.present.charts import plan_figure
 
     fig = plan_figure(failed)
     ax_sat = fig.axes[1]
@@ -136,9 +136,9 @@ def test_demo_with_a_child_is_extrapolated_for_the_child_only():
 
 def test_acclimatized_trek_days_are_validated_new_high_camps_not_yet():
     # an invented trek: a week at 4,000 m, then 5,400 m. The week makes the climber acclimatized
-    # (altox.validity: 7 days' ventilatory acclimatization, Huang 1984); the first day at 5,400 m
+    # (altox.physiology.validity: 7 days' ventilatory acclimatization, Huang 1984); the first day at 5,400 m
     # is above the ~5,000 m acute data with partial acclimatization: extrapolated, not validated
-    from altox.profile import load_plan_text
+    from altox.plan.profile import load_plan_text
 
     days = "\n".join(f"  - {{day: {d}, sleep: '4,000 m'}}" for d in range(1, 9))
     text = f"""kind: expedition
@@ -154,8 +154,7 @@ days:
 
 
 def test_fleet_review_gives_no_saturation_for_the_cabin_failure(tmp_path):
-    from altox import fleet
-
+    from altox.evaluation import fleet as fleet
     (tmp_path / "failure.yaml").write_text(FIXTURE.read_text())
     (tmp_path / "jet.yaml").write_text((DEMOS / "jet-highcruise.yaml").read_text())
     lines = {Path(x["source"]).name: x for x in fleet.review_plans([tmp_path], batch=4)}

@@ -1,0 +1,1 @@
+"""altox.cli.main: see DEVELOPERS.md for what this layer holds."""

@@ -1,0 +1,1 @@
+"""altox.evaluation: see DEVELOPERS.md for what this layer holds."""

@@ -1,0 +1,1 @@
+"""altox.physiology: see DEVELOPERS.md for what this layer holds."""

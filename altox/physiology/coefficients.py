@@ -1,0 +1,14 @@
+"""The model coefficient table (``altox/data/models.yaml``): every fitted or published
+coefficient of the physiology, each with its value, unit and source, loaded once."""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+
+@lru_cache(maxsize=1)
+def model_coefficients() -> dict:
+    """The model coefficient table, loaded once from ``altox/data/models.yaml``."""
+    from altox.yamlload import load_data_file
+
+    return load_data_file("models")

@@ -1,0 +1,1 @@
+"""altox.plan: see DEVELOPERS.md for what this layer holds."""

@@ -1,0 +1,1 @@
+"""altox.present: see DEVELOPERS.md for what this layer holds."""
