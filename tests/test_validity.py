@@ -179,3 +179,23 @@ def test_assess_carries_validity_scalar_and_array():
     assert arr["validity_status"].tolist() == [[VALIDATED, EXTRAPOLATED, NO_STEADY_STATE],
                                                [VALIDATED, VALIDATED, VALIDATED]]
     assert arr["validity_status"].dtype == np.int8
+
+
+def test_known_optimistic_band_is_said_in_the_output():
+    # The one optimistic residual beyond tolerance (tests/reference_data/spo2_altitude.csv,
+    # spo2_tannheimer_7100: Tannheimer et al., Int J Sports Med 2002, median 63 % at 7,100 m,
+    # model about 72 %) must show in the user's output wherever the model is in that band.
+    from altox.cli.main import app
+    from typer.testing import CliRunner
+
+    import json
+
+    def notes(*args):
+        r = CliRunner().invoke(app, ["point", *args, "--json"])
+        assert r.exit_code == 0, r.output
+        return " ".join(json.loads(r.stdout)["validity_notes"])
+
+    assert "Known optimistic error" in notes("--altitude", "7100m", "--atmosphere", "mountain", "--days", "20")
+    assert "Known optimistic error" in notes("--altitude", "5600m", "--atmosphere", "mountain", "--days", "20")
+    assert "Known optimistic error" not in notes("--altitude", "4000m", "--days", "7")
+    assert "Known optimistic error" not in notes("--pressure", "253mmHg", "--days", "40")

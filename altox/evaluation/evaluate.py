@@ -403,6 +403,10 @@ def _validity_notes(legs, members) -> list[str]:
     if extrapolated:
         out.append("Extrapolated on leg(s) " + ", ".join(str(leg["leg"]) for leg in extrapolated) + ": "
                    + " ".join(extrapolated[0]["validity_notes"]))
+    optimistic = [leg for leg in legs if any(n.startswith("Known optimistic") for n in leg.get("validity_notes", []))]
+    if optimistic:
+        note = next(n for n in optimistic[0]["validity_notes"] if n.startswith("Known optimistic"))
+        out.append("On leg(s) " + ", ".join(str(leg["leg"]) for leg in optimistic) + ": " + note)
     for m in members:
         age_notes = [n for n in m["validity_notes"] if n.startswith("Extrapolated: age")]
         if age_notes:

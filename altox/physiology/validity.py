@@ -34,7 +34,7 @@ from functools import lru_cache
 
 import numpy as np
 
-__all__ = ["VALIDATED", "EXTRAPOLATED", "NO_STEADY_STATE", "STATUS_NAMES", "ACUTE_ABOVE_DATA",
+__all__ = ["VALIDATED", "EXTRAPOLATED", "NO_STEADY_STATE", "STATUS_NAMES", "ACUTE_ABOVE_DATA", "KNOWN_OPTIMISTIC",
            "AGE_OUTSIDE_DATA", "TUC_REGIME", "BELOW_FLOOR", "NO_SOLUTION", "limits", "classify",
            "air_equivalent_altitude_ft", "status_name", "validity_notes", "time_limited_text",
            "tuc_text", "describe", "describe_samples"]
@@ -48,6 +48,7 @@ AGE_OUTSIDE_DATA = 2     # extrapolated: age outside the adult data
 TUC_REGIME = 4           # no steady state: acute, at or above 20,000 ft
 BELOW_FLOOR = 8          # no steady state: inspired PO2 below the model's floor
 NO_SOLUTION = 16         # no steady state: the ventilation model has no resting solution
+KNOWN_OPTIMISTIC = 32    # a steady state where the model is known to read high (status unchanged)
 
 _EXTRAPOLATED_BITS = ACUTE_ABOVE_DATA | AGE_OUTSIDE_DATA
 _NO_STEADY_BITS = TUC_REGIME | BELOW_FLOOR | NO_SOLUTION
@@ -83,6 +84,12 @@ def limits() -> dict:
     out["acute_max_fraction"] = float(acclimatization_fractions(out["acute_max_days"])[0])
     out["acute_validated_max_pb_mmhg"] = float(barometric_pressure(out["acute_validated_max_m"], "isa"))
     out["no_steady_state_max_pb_mmhg"] = float(pressure_altitude_ft_to_mmhg(out["no_steady_state_min_altitude_ft"]))
+    band = data["known_optimistic_band"]
+    out["known_optimistic_min_m"] = float(band["min_m"])
+    out["known_optimistic_max_m"] = float(band["max_m"])
+    out["known_optimistic_points"] = float(band["residual_points"])
+    out["known_optimistic_min_pb_mmhg"] = float(barometric_pressure(out["known_optimistic_max_m"], "mountain"))
+    out["known_optimistic_max_pb_mmhg"] = float(barometric_pressure(out["known_optimistic_min_m"], "mountain"))
     return out
 
 
@@ -186,6 +193,10 @@ def classify(inspired_po2_mmhg, f_ventilatory, age_y=40.0, solver_converged=True
     reasons = reasons | np.where(pio2 < lim["min_inspired_po2_mmhg"], BELOW_FLOOR, 0)
     reasons = reasons | np.where(~np.asarray(solver_converged, dtype=bool)
                                  | np.asarray(alveolar_po2_clamped, dtype=bool), NO_SOLUTION, 0)
+    pio2_band_lo = AIR_FIO2 * (lim["known_optimistic_min_pb_mmhg"] - ph2o)
+    pio2_band_hi = AIR_FIO2 * (lim["known_optimistic_max_pb_mmhg"] - ph2o)
+    in_band = (pio2 >= pio2_band_lo) & (pio2 <= pio2_band_hi)
+    reasons = np.where(in_band & ~np.asarray(reasons & _NO_STEADY_BITS, dtype=bool), reasons | KNOWN_OPTIMISTIC, reasons)
     reasons = np.asarray(reasons, dtype=np.int16)
     status = np.where(reasons & _NO_STEADY_BITS, NO_STEADY_STATE,
                       np.where(reasons & _EXTRAPOLATED_BITS, EXTRAPOLATED, VALIDATED)).astype(np.int8)
@@ -287,10 +298,16 @@ def validity_notes(reasons, *, inspired_po2_mmhg, age_y=40.0, body_temp_c=37.0) 
         notes.append(f"Extrapolated: age {float(age_y):g} years is outside the adults "
                      f"({lim['adult_min_age_y']:g} to {lim['adult_max_age_y']:g} years) of the "
                      "published measurements the model is checked against.")
-    if not notes:
+    if not notes and not reasons & KNOWN_OPTIMISTIC:
         notes.append(f"Within the validated range: resting adults, acute exposure up to "
                      f"{lim['acute_validated_max_m']:,.0f} m or acclimatized (about "
                      f"{lim['acclimatized_min_days']:g} days or more) up to the highest summit.")
+    if reasons & KNOWN_OPTIMISTIC and not reasons & _NO_STEADY_BITS:
+        notes.append(f"Known optimistic error: between about {lim['known_optimistic_min_m']:,.0f} and "
+                     f"{lim['known_optimistic_max_m']:,.0f} m the model has read up to "
+                     f"{lim['known_optimistic_points']:.0f} points above the resting SpO2 published for "
+                     "climbers at a high camp (Tannheimer et al., Int J Sports Med 2002): expect lower "
+                     "saturations than shown here.")
     return notes
 
 
