@@ -45,7 +45,7 @@ def _assert_same(vector, element):
         np.testing.assert_allclose(got, ref, rtol=RTOL, atol=ATOL, equal_nan=True, err_msg=k)
 
 
-@settings(max_examples=15, deadline=None)
+@settings(max_examples=15, deadline=None, derandomize=True)  # repeatable in CI
 @given(st.data())
 def test_nd_arrays_equal_element_by_element(data):
     """Any n-d shape, broadcast across several inputs, with extreme elements mixed in."""
