@@ -31,7 +31,7 @@ def test_contract_keys_and_scalars():
 def test_no_nan_or_inf(alt, d, fio2, atm, age, hb):
     r = altox.assess(alt, atmosphere=atm, days=d, fio2=fio2, age_y=age, hb_g_dl=hb)
     for k, v in r.items():
-        if isinstance(v, float) and k != "days_at_altitude":
+        if isinstance(v, float):
             assert np.isfinite(v), k
     assert r["alveolar_po2_mmhg"] >= 0.0
     assert 0.0 <= r["sao2_pct"] <= 100.0
@@ -127,3 +127,15 @@ def test_flight_cabin_8000ft_saturation():
 def test_bad_input(kwargs, match):
     with pytest.raises(OutOfRangeError, match=match):
         altox.assess(**kwargs)
+
+
+def test_days_at_altitude_with_factors_given_is_the_equivalent_days():
+    # was NaN silently: with the fractions given, the constant-altitude days that give them
+    from altox.physiology.ventilation import acclimatization_fractions
+
+    for d in (0.0, 1.0, 5.0, 20.0):
+        fv, fr = acclimatization_fractions(d)
+        r = altox.assess(4000.0, f_ventilatory=fv, f_renal=fr)
+        assert np.isfinite(r["days_at_altitude"])
+        assert r["days_at_altitude"] == pytest.approx(d, abs=1e-9)
+

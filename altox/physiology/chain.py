@@ -246,7 +246,7 @@ def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_F
         "atmosphere": atm_label,
         "barometric_mmhg": pb,
         "fio2": fio2_a,
-        "days_at_altitude": days if (f_ventilatory is None and f_renal is None) else np.nan,
+        "days_at_altitude": days if (f_ventilatory is None and f_renal is None) else _equivalent_days(fv),
         "inspired_po2_mmhg": pio2,
         "alveolar_pco2_mmhg": paco2,
         "alveolar_po2_mmhg": pao2,
@@ -264,3 +264,20 @@ def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_F
         "equivalent_altitude_clipped": clipped,
         "solver_converged": converged,
     }
+
+
+def _equivalent_days(f_ventilatory):
+    """Days at a constant altitude that give this ventilatory acclimatization fraction.
+
+    When :func:`assess` is given the acclimatization fractions directly (as plans do, from the
+    history along a timeline), ``days_at_altitude`` is the constant-altitude equivalent,
+    ``-tau ln(1 - f)`` with the ventilatory time constant of the model table (the inverse of
+    :func:`altox.physiology.ventilation.acclimatization_fractions`); a fraction of 1 gives the
+    largest finite number of days.
+    """
+    tau = ventilation.default_parameters().ventilatory_time_constant_days
+    f = np.clip(np.asarray(f_ventilatory, dtype=float), 0.0, 1.0)
+    with np.errstate(divide="ignore"):
+        d = -tau * np.log1p(-f)
+    return np.minimum(d, np.finfo(float).max)
+
