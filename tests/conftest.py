@@ -15,7 +15,7 @@ def render_demo(path: Path) -> dict:
     """A demo as ``altox plan`` sees it (members 20, fixed seed): result and every user format."""
     from rich.console import Console
 
-    from altox.present import render as render
+    from altox.present import render
     from altox.cli.main import _load_and_evaluate
     from altox.present.report import build_report
 

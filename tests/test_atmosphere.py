@@ -96,7 +96,8 @@ def test_isa_layer_table_is_ambiances():
     # the embedded ICAO layer table and constants are exactly ambiance's (ambiance stays the reference)
     from ambiance.ambiance import CONST
 
-    from altox.physiology import atmosphere as atmosphere
+    from altox.physiology import atmosphere
+
     assert [tuple(row[:4]) for row in CONST.LAYER_SPEC_PROP] == list(atmosphere.ISA_LAYERS)
     assert (CONST.g_0, CONST.R, CONST.r) == (atmosphere.ISA_G0_M_S2, atmosphere.ISA_R_J_KG_K,
                                              atmosphere.ISA_EARTH_RADIUS_M)

@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 from hypothesis import given, strategies as st
 
-from altox.physiology import blood as blood
+from altox.physiology import blood
+
 from refdata import number, rows
 
 

@@ -80,6 +80,7 @@ def test_fast_solver_matches_scalar_reference():
     from scipy.optimize import brentq
 
     from altox.physiology import ventilation as v
+
     rng = np.random.default_rng(7)
     pio2 = rng.uniform(35.0, 160.0, 200)
     fv = rng.uniform(0.0, 1.0, 200)

@@ -11,7 +11,7 @@ import pytest
 from clirun import run_cli
 
 from altox.present.charts import (CHART_DPI, CHART_SIZE_IN, applied_rule_sets, plan_figure, render_chart,
-                          saturation_levels_pct, threshold_lines)
+                                  saturation_levels_pct, threshold_lines)
 from altox.evaluation.evaluate import evaluate_plan
 from altox.plan.profile import load_plan, load_plan_text
 

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from altox.evaluation.decompression import (TUC_ABOVE, TUC_BELOW, descent_oxygen_l, descent_time_min,
-                                 oxygen_free_altitudes_ft, tuc_range_s)
+                                            oxygen_free_altitudes_ft, tuc_range_s)
 from refdata import number, rows
 
 

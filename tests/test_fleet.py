@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from altox.evaluation import fleet as fleet
+from altox.evaluation import fleet
 from altox.cli.main import app
 from altox.evaluation.evaluate import evaluate_plan
 from altox.plan.profile import load_plan

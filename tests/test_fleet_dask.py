@@ -9,7 +9,7 @@ if os.environ.get("CI") != "true":      # in CI the extra is installed and a mis
     pytest.importorskip("distributed")
     pytest.importorskip("pandas")
 
-from altox.evaluation import fleet as fleet
+from altox.evaluation import fleet
 from altox.evaluation.fleet_dask import review_dataframe, review_on_dask, write_partitions  # noqa: E402
 
 from test_fleet import make_fleet  # noqa: E402

@@ -11,7 +11,7 @@ ndtri in tests/test_atmosphere.py.
 import numpy as np
 import pytest
 
-from altox.physiology import blood as blood
+from altox.physiology import blood
 from altox.physiology import gas_exchange as ge
 from altox.evaluation.sampling import Knots
 

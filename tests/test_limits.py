@@ -4,9 +4,9 @@ the first outside is refused with exit status 2 and a message naming the limit."
 import pytest
 from typer.testing import CliRunner
 
-from altox.evaluation import population as population
+from altox.evaluation import population
 
-from altox.plan import profile as profile
+from altox.plan import profile
 from altox.cli.main import MAX_SEED, app, check_seed
 from altox.cli.people import _check_members
 from altox.errors import AltoxError, OutOfRangeError, ProfileError

@@ -12,8 +12,8 @@ import pytest
 
 from altox.errors import ProfileError, UnitError
 from altox.plan.profile import (ExpeditionPlan, FlightPlan, load_plan, load_plan_text, parse_flow,
-                           parse_hemoglobin, parse_vertical_speed, plan_from_data,
-                           plan_json_schema)
+                                parse_hemoglobin, parse_vertical_speed, plan_from_data,
+                                plan_json_schema)
 from altox.yamlload import MAX_PLAN_BYTES
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -8,9 +8,7 @@ import numpy as np
 import pytest
 from typer.testing import CliRunner
 
-from altox.evaluation import population as population
-
-from altox.evaluation import readings as readings
+from altox.evaluation import population, readings
 from altox.errors import OutOfRangeError, ProfileError
 from altox.plan.profile import load_plan, load_plan_text
 

@@ -13,7 +13,7 @@ import pytest
 
 from altox.errors import AltoxError, ProfileError
 from altox.guidance import (Finding, available_rule_sets, check_flight, check_itinerary,
-                         load_rule_set, risk_category)
+                            load_rule_set, risk_category)
 
 MIN = 1.0 / 60.0
 RULES_DIR = Path(__file__).resolve().parents[1] / "altox" / "data" / "rules"

@@ -8,6 +8,8 @@ import numpy as np
 import pytest
 
 from altox.physiology import ventilation as v
+
+
 def _bracketed_reference(pio2, fio2, fv, fr, **kw):
     """The robust path alone (Illinois regula falsi on the whole bracket) on the same residual."""
     pio2_a, state, _ = v._make_state(pio2, fio2, 0.8, fv, fr, kw.get("metabolic_ratio", 1.0),
@@ -82,8 +84,9 @@ def test_no_steady_state_below_the_cliff_is_flagged_and_above_converges():
 
 def test_content_inversion_fast_path_matches_safeguarded_newton():
     # Newton without a bracket (checked at the result) vs the bracketed Newton, PO2 for a content
-    from altox.physiology import blood as blood
+    from altox.physiology import blood
     from altox.physiology import gas_exchange as ge
+
     rng = np.random.default_rng(5)
     n = 5000
     hb = rng.uniform(8.0, 20.0, n)

@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 from altox.physiology.atmosphere import barometric_pressure, pressure_altitude_ft_to_mmhg
 from altox.plan.profile import load_plan, load_plan_text, plan_from_data
 from altox.plan.timeline import (OXYGEN_ALL, OXYGEN_CREW, OXYGEN_NONE, OXYGEN_PATIENT, Timeline,
-                            expand)
+                                 expand)
 from altox.units import M_PER_FT, PA_PER_MMHG, PA_PER_PSI
 
 ROOT = Path(__file__).resolve().parents[1]

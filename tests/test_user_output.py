@@ -179,7 +179,7 @@ def test_one_legend_in_terminal_report_and_docs(demo_outputs, demo):
 def test_feet_converts_the_altitudes_and_flights_never_show_negative_altitudes(demo_outputs):
     from rich.console import Console
 
-    from altox.present import render as render
+    from altox.present import render
     from altox.units import label_in_unit, shown_equivalent_altitude
 
     assert shown_equivalent_altitude(-1447.5, feet=True) == "hyperoxic"

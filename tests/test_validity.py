@@ -26,8 +26,8 @@ from altox.cli.main import app
 from altox.physiology.gas_exchange import inspired_po2
 from altox.units import M_PER_FT
 from altox.physiology.validity import (ACUTE_ABOVE_DATA, AGE_OUTSIDE_DATA, BELOW_FLOOR, EXTRAPOLATED, NO_SOLUTION,
-                            NO_STEADY_STATE, TUC_REGIME, VALIDATED, air_equivalent_altitude_ft, classify,
-                            limits, time_limited_text, tuc_text, validity_notes)
+                                       NO_STEADY_STATE, TUC_REGIME, VALIDATED, air_equivalent_altitude_ft, classify,
+                                       limits, time_limited_text, tuc_text, validity_notes)
 
 
 def _pio2_ft(ft):

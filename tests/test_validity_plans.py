@@ -154,7 +154,8 @@ days:
 
 
 def test_fleet_review_gives_no_saturation_for_the_cabin_failure(tmp_path):
-    from altox.evaluation import fleet as fleet
+    from altox.evaluation import fleet
+
     (tmp_path / "failure.yaml").write_text(FIXTURE.read_text())
     (tmp_path / "jet.yaml").write_text((DEMOS / "jet-highcruise.yaml").read_text())
     lines = {Path(x["source"]).name: x for x in fleet.review_plans([tmp_path], batch=4)}

@@ -75,6 +75,7 @@ def fix(
         from altox.plan.profile import load_plan
         from altox.present.outfiles import check_output, write_atomic
         from altox.evaluation import repair as rp
+
         if write is not None:
             check_output(write, option="--write", suffixes=(".yaml", ".yml"), force=force, inputs=[file])
         if max_days is not None and not 1 <= max_days <= 1000:

@@ -88,7 +88,8 @@ def review(
     run_guarded(check)
 
     def body():
-        from altox.evaluation import fleet as fleet
+        from altox.evaluation import fleet
+
         summary = fleet.FleetSummary()
         advance, close = _progress()
         out = open(output, "w", encoding="utf-8", newline="") if output else sys.stdout

@@ -88,7 +88,7 @@ def point(
                 shown = altitude if field == "--altitude" else pressure
                 raise type(exc)(f"{field}: {shown!r}: {exc.message}", field=field) from None
             raise
-        from altox.present import render as render
+        from altox.present import render
         from altox.physiology.validity import describe
 
         state = describe(result["validity_status"], result["validity_reasons"],
@@ -176,7 +176,8 @@ def plan(
                              "as 'altox range' and 'altox readings')."),
 ):
     """Evaluate plans leg by leg: pressures, PIO2, PAO2, PaO2, expected SaO2, dose and guidance flags."""
-    from altox.present import render as render
+    from altox.present import render
+
     if json_out and csv_out:
         _fail("--json and --csv exclude each other; give one of them.")
     if timeline and not (json_out or csv_out):

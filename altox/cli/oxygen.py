@@ -318,7 +318,7 @@ def decompress(
 
     def body():
         from altox.evaluation.decompression import (descent_convention, descent_oxygen_l, descent_time_min,
-                                    oxygen_free_altitudes_ft, tuc_range_s, tuc_table)
+                                                    oxygen_free_altitudes_ft, tuc_range_s, tuc_table)
         from altox.evaluation.oxygen import load_data
         from altox.evaluation.oxygen_plan import _device_for_cabin
         from altox.plan.profile import parse_vertical_speed

@@ -322,7 +322,7 @@ def fio2_for_target(pb_mmhg, *, equivalent_altitude_m=None, pio2_mmhg=None, alve
 def _altitudes_of(pb, atmosphere):
     """Altitude in ``atmosphere`` and ISA pressure altitude of pressures, NaN outside the models."""
     from altox.physiology.atmosphere import (ISA_MAX_M, ISA_MIN_M, MOUNTAIN_MAX_M, MOUNTAIN_MIN_M, altitude_for_pressure,
-                             barometric_pressure, pressure_altitude_ft)
+                                             barometric_pressure, pressure_altitude_ft)
 
     pb = np.asarray(pb, dtype=float)
     lo_m, hi_m = (ISA_MIN_M, ISA_MAX_M) if atmosphere == "isa" else (MOUNTAIN_MIN_M, MOUNTAIN_MAX_M)

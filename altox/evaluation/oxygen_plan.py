@@ -352,7 +352,7 @@ def decompression_review(plan, result) -> dict:
         ``worst_leg``, ``convention``, ``tuc_caution``, ``notes``, ``caution``.
     """
     from altox.evaluation.decompression import (certification_descent_oxygen_l, certification_flow, descent_convention,
-                                descent_time_min, oxygen_free_altitudes_ft, tuc_range_s, tuc_table)
+                                                descent_time_min, oxygen_free_altitudes_ft, tuc_range_s, tuc_table)
 
     base = {"plan": plan.name, "kind": plan.kind, "caution": CAUTION}
     if plan.kind != "flight":

@@ -34,7 +34,7 @@ import numpy as np
 
 from altox.errors import AltoxError
 from altox.evaluation.repair_common import (BROKEN, GOAL_EXAMPLE, Goal, Night, Repair, _dump, _put_after, _q,  # noqa: F401
-                           _round_trip, parse_goal)
+                                            _round_trip, parse_goal)
 
 #: default bound on the states the itinerary search may expand
 MAX_STATES = 200_000

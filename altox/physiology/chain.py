@@ -8,15 +8,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from altox.physiology import blood as blood
-
-from altox.physiology import gas_exchange as gas_exchange
-
-from altox.physiology import validity as validity
-
-from altox.physiology import ventilation as ventilation
+from altox.physiology import blood, gas_exchange, validity, ventilation
 from altox.physiology.atmosphere import (ATMOSPHERES, ISA_MAX_M, ISA_MIN_M, MOUNTAIN_MAX_M, MOUNTAIN_MIN_M,
-                         altitude_for_pressure, barometric_pressure)
+                                         altitude_for_pressure, barometric_pressure)
 from altox.errors import OutOfRangeError
 
 #: keys of the mapping :func:`assess` returns, in display order (also the JSON keys)

@@ -22,7 +22,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from altox.physiology import blood as blood
+from altox.physiology import blood
 from altox.physiology.atmosphere import SEA_LEVEL_MMHG, altitude_for_pressure
 from altox.units import PA_PER_MMHG
 

@@ -37,7 +37,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from altox.physiology import blood as blood
+from altox.physiology import blood
 from altox.physiology.coefficients import model_coefficients  # noqa: F401  (re-exported)
 from altox.physiology.gas_exchange import AIR_FIO2, alveolar_gas_factor, alveolar_po2
 from altox.physiology.atmosphere import SEA_LEVEL_MMHG

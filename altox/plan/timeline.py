@@ -50,7 +50,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from altox.physiology.atmosphere import (altitude_for_pressure, barometric_pressure, pressure_altitude_ft,
-                         pressure_altitude_ft_to_mmhg)
+                                         pressure_altitude_ft_to_mmhg)
 from altox.plan.profile import ExpeditionPlan, FlightPlan
 from altox.units import M_PER_FT
 
