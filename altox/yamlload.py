@@ -28,6 +28,7 @@ import re
 import stat
 import unicodedata
 from dataclasses import dataclass, field
+from functools import lru_cache
 from pathlib import Path
 
 import yaml
@@ -41,8 +42,12 @@ from altox.errors import ProfileError
 FAST_SAFE_LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
 
 
+@lru_cache(maxsize=None)
 def load_data_file(name: str):
-    """Parse ``altox/data/<name>.yaml``, one of altox's own (trusted) data files, safely and fast."""
+    """Parse ``altox/data/<name>.yaml``, one of altox's own (trusted) data files, safely and fast.
+
+    Parsed once per process and shared: callers read the result and never change it.
+    """
     from importlib.resources import files
 
     text = files("altox").joinpath(f"data/{name}.yaml").read_text(encoding="utf-8")
@@ -267,7 +272,7 @@ def _unprintable(text: str):
     return None
 
 
-def _check_printable(text: str, path, line, col, here, noun):
+def _check_printable(text: str, path, line, col, here):
     if text.isascii() and text.isprintable():
         return
     ch = _unprintable(text)
@@ -281,7 +286,7 @@ def _check_printable(text: str, path, line, col, here, noun):
 def _scalar_value(event, path, here=(), noun="plan"):
     tag = event.tag
     line, col = event.start_mark.line + 1, event.start_mark.column + 1
-    _check_printable(event.value, path, line, col, here, noun)
+    _check_printable(event.value, path, line, col, here)
     if tag is None or tag == "!":
         if tag is None and event.implicit[0]:
             tag = _resolver.resolve(ScalarNode, event.value, (True, False))
@@ -446,7 +451,7 @@ def parse_yaml(text: str, path: str = "<string>", *, noun: str = "plan") -> tupl
                           value=event.value, expected="a field name")
                 key = event.value
                 loc = stack[-1][1]
-                _check_printable(key, path, *line_col, loc, noun)
+                _check_printable(key, path, *line_col, loc)
                 if key == "<<" and event.implicit[0]:
                     _fail(path, *line_col, f"merge keys ('<<') are not allowed in {noun} files "
                           f"(in {format_path(loc)}); write the fields out.", field=format_path(loc),

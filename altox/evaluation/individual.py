@@ -38,8 +38,6 @@ Why this module is long: individual factors and the fitness-to-fly path are one 
 
 from __future__ import annotations
 
-from functools import lru_cache
-
 import numpy as np
 
 from altox.errors import OutOfRangeError
@@ -58,7 +56,6 @@ class FactorError(OutOfRangeError):
     """An individual factor that altox cannot use (e.g. an SpO2 the model cannot reach)."""
 
 
-@lru_cache(maxsize=1)
 def coefficients() -> dict:
     """The table of ``altox/data/individual.yaml``, loaded once."""
     from altox.yamlload import load_data_file

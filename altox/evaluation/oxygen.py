@@ -42,8 +42,6 @@ Why this module is long: the oxygen targets, delivery devices, ventilation by ac
 
 from __future__ import annotations
 
-from functools import lru_cache
-
 import numpy as np
 
 from altox.errors import AltoxError, OutOfRangeError
@@ -72,7 +70,6 @@ _MMHG_PER_BAR = PA_PER_BAR / PA_PER_MMHG
 
 
 # -- data --------------------------------------------------------------------------------
-@lru_cache(maxsize=None)
 def load_data(name: str) -> dict:
     """A data file of ``altox/data`` (``'oxygen_devices'``, ``'cylinders'``, ``'tuc'``,
     ``'activity_ventilation'``), parsed once."""

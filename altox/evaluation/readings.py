@@ -136,13 +136,7 @@ def _severity(total):
 def _oximetry():
     from altox.yamlload import load_data_file
 
-    global _OXIMETRY
-    if _OXIMETRY is None:
-        _OXIMETRY = load_data_file("oximetry")
-    return _OXIMETRY
-
-
-_OXIMETRY = None
+    return load_data_file("oximetry")
 
 
 def oximeter_error(sao2_pct):

@@ -339,6 +339,9 @@ def check_flight_levels(duration_h, aircraft_pressure_altitude_ft, leg, oxygen_u
     if use.ndim == 0:
         use = np.full(n, use.item(), dtype=object)
     findings: list[Finding] = []
+    crew_on_oxygen = np.isin(use, list(_COVERED_BY["crew"]))
+    crew = (f"{pilots_at_controls} pilot{'s' if pilots_at_controls != 1 else ''}, "
+            f"{'quick-donning masks' if quick_donning else 'no quick-donning masks stated'}")
     for th in rs.thresholds:
         if th.check not in FLIGHT_LEVEL_CHECKS or (th.pressurized_only and not pressurized):
             continue
@@ -364,14 +367,12 @@ def check_flight_levels(duration_h, aircraft_pressure_altitude_ft, leg, oxygen_u
                        f"{_fmt_min(need)} is asked for, {_on_legs(band_legs)}.")
                 findings.append(_finding(rs, th, band_legs, "required-not-planned", msg))
             continue
-        covered = np.isin(use, list(_COVERED_BY["crew"])) & band
+        covered = crew_on_oxygen & band
         ex = th.unless
         excused = np.zeros(n, dtype=bool)
         if ex is not None and pilots_at_controls >= ex.pilots_at_controls and (quick_donning or not ex.quick_donning):
             excused = band & (alt <= ex.up_to_ft + _EPS_FT if ex.up_to_ft is not None else True)
         short = band & ~covered & ~excused
-        crew = (f"{pilots_at_controls} pilot{'s' if pilots_at_controls != 1 else ''}, "
-                f"{'quick-donning masks' if quick_donning else 'no quick-donning masks stated'}")
         if short.any():
             short_legs = sorted(set(legs[short].tolist()))
             why = ""

@@ -10,7 +10,7 @@ import numpy as np
 
 from altox.physiology import blood, gas_exchange, validity, ventilation
 from altox.physiology.atmosphere import (ATMOSPHERES, ISA_MAX_M, ISA_MIN_M, MOUNTAIN_MAX_M, MOUNTAIN_MIN_M,
-                                         altitude_for_pressure, barometric_pressure)
+                                         _pressure_span, altitude_for_pressure, barometric_pressure)
 from altox.errors import OutOfRangeError
 
 #: keys of the mapping :func:`assess` returns, in display order (also the JSON keys)
@@ -165,8 +165,7 @@ def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_F
                                   f"lungs ({float(np.max(ph2o)):.0f} mmHg): no oxygen can be inspired",
                                   field="pressure", value=float(v), expected="a pressure above 47 mmHg")
         if altitude_m is None:
-            lo_p = barometric_pressure(_model_range(atmosphere)[1], atmosphere)
-            hi_p = barometric_pressure(_model_range(atmosphere)[0], atmosphere)
+            lo_p, hi_p = _pressure_span(atmosphere)
             alt = np.asarray(altitude_for_pressure(np.clip(pb, lo_p, hi_p), atmosphere))
         else:
             alt = np.asarray(altitude_m, dtype=float)
@@ -225,13 +224,10 @@ def _evaluate(atmosphere, altitude_m=None, pb_mmhg=None, fio2=gas_exchange.AIR_F
     content = np.asarray(blood.oxygen_content(hb, sao2, pao2_art))
 
     # equivalent altitude: ambient air with the same PIO2, in the same atmosphere (ISA when measured)
-    eq_atm = "isa" if atmosphere == "isa" else atmosphere
-    lo_m, hi_m = _model_range(eq_atm)
     pb_eq = pio2 / gas_exchange.AIR_FIO2 + ph2o
-    p_min = barometric_pressure(hi_m, eq_atm)
-    p_max = barometric_pressure(lo_m, eq_atm)
+    p_min, p_max = _pressure_span(atmosphere)
     clipped = (pb_eq < p_min) | (pb_eq > p_max)
-    eq_alt = np.asarray(altitude_for_pressure(np.clip(pb_eq, p_min, p_max), eq_atm))
+    eq_alt = np.asarray(altitude_for_pressure(np.clip(pb_eq, p_min, p_max), atmosphere))
 
     state = validity.classify(pio2, fv, age_y, converged, clamped, body_temp_c)
     return {

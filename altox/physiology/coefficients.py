@@ -3,10 +3,6 @@ coefficient of the physiology, each with its value, unit and source, loaded once
 
 from __future__ import annotations
 
-from functools import lru_cache
-
-
-@lru_cache(maxsize=1)
 def model_coefficients() -> dict:
     """The model coefficient table, loaded once from ``altox/data/models.yaml``."""
     from altox.yamlload import load_data_file

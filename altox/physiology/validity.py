@@ -95,11 +95,11 @@ def limits() -> dict:
 
 def _air_equivalent_pb(inspired_po2_mmhg, body_temp_c=37.0):
     """Pressure at which air gives this inspired PO2, clipped to the ISA range. [mmHg]"""
-    from altox.physiology.atmosphere import ISA_MAX_M, ISA_MIN_M, barometric_pressure
+    from altox.physiology.atmosphere import _pressure_span
     from altox.physiology.gas_exchange import AIR_FIO2, water_vapour_pressure
 
     pb = np.asarray(inspired_po2_mmhg, dtype=float) / AIR_FIO2 + water_vapour_pressure(body_temp_c)
-    return np.clip(pb, barometric_pressure(ISA_MAX_M, "isa"), barometric_pressure(ISA_MIN_M, "isa"))
+    return np.clip(pb, *_pressure_span("isa"))
 
 
 def air_equivalent_altitude_ft(inspired_po2_mmhg, body_temp_c=37.0):

@@ -127,8 +127,8 @@ def _make_state(pio2_mmhg, fio2, rq, f_ventilatory, f_renal, metabolic_ratio, hy
             * dscale ** p.sleep_hypoxic_gain_exponent)
     s_sl = _sea_level_saturation()
     k_acute = blood.ACUTE_HCO3_PER_MMHG
-    k_renal = (blood.secondary_response_slopes(fr)[0] - k_acute)
-    k_high = blood.secondary_response_slopes(fr)[1]
+    k_low, k_high = blood.secondary_response_slopes(fr)
+    k_renal = k_low - k_acute
     # the kidney's answer to alkalosis is not applied to the hypocapnia that compensates a metabolic
     # acidosis (Adrogue & Madias 2010: PCO2 falls about 1.2 mmHg per mmol/L of bicarbonate lost)
     shift = METABOLIC_ACIDOSIS_PCO2_PER_HCO3 * np.maximum(-off, 0.0)
