@@ -204,12 +204,12 @@ def test_seed_outside_range_is_refused(tmp_path, command, seed):
 @pytest.mark.parametrize("option,suffix,err", [("--report", ".html", errno.ENOSPC), ("--chart", ".svg", errno.EACCES)],
                          ids=["report-disk-full", "chart-read-only"])
 def test_output_write_failure_names_option_and_os_error(tmp_path, monkeypatch, option, suffix, err):
-    import altox.present.report
+    import altox.present.outfiles
 
     def refuse(*args, **kwargs):
         raise OSError(err, os.strerror(err))
 
-    monkeypatch.setattr(altox.present.report.tempfile, "mkstemp", refuse)
+    monkeypatch.setattr(altox.present.outfiles.tempfile, "mkstemp", refuse)
     out = tmp_path / f"out{suffix}"
     res = RUN.invoke(app, ["plan", _write(tmp_path, FLIGHT), option, str(out), "--members", "0"])
     first = assert_refused(res, where=option, words=(os.strerror(err),))

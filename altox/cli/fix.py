@@ -101,9 +101,8 @@ def fix(
             data["caution"] = CAUTION
             typer.echo(to_json(data))
         else:
-            from rich.console import Console
-
             from altox.present.render_repair import repair_renderables
+            from altox.present.terminal import console as Console
 
             console = Console()
             for part in repair_renderables(original, result, summary, written=write):

@@ -187,7 +187,8 @@ def plan(
         def check_outputs():
             from altox.present.charts import CHART_FORMATS
             from altox.errors import AltoxError
-            from altox.present.report import REPORT_SUFFIXES, check_output
+            from altox.present.outfiles import check_output
+            from altox.present.report import REPORT_SUFFIXES
 
             if len(files) != 1:
                 raise AltoxError(f"{outputs[0][0]} draws one plan; got {len(files)} files (run altox plan "
@@ -227,7 +228,8 @@ def plan(
             console.print()
     if outputs and results:
         def write_outputs():
-            from altox.present.charts import applied_rule_sets, save_chart
+            from altox.guidance.applied import applied_rule_sets
+            from altox.present.charts import save_chart
             from altox.present.report import write_report
 
             rule_files = [r for r in rules if _is_file(r)]

@@ -17,7 +17,6 @@ import typer
 from altox.cli.app import app, run_guarded
 from altox.evaluation.defaults import ENSEMBLE_MEMBERS, ENSEMBLE_SEED
 from altox.present.render_people import fitness_lines, readings_renderables  # noqa: E402,F401  (re-exported)
-from altox.present.render_people import _pct  # noqa: E402,F401  (re-exported)
 
 _SEED_HELP = "Seed of the ensemble (the same seed gives the same numbers)."
 

@@ -56,6 +56,7 @@ class PlanResult:
     notes: list[str] = field(default_factory=list)
     guidance_notes: list[str] = field(default_factory=list)  # rule sets not applied; what was not checked
     extras: dict = field(default_factory=dict)   # expected ranges, readings, oxygen and decompression reviews
+    rule_file: object = None      # the plan's own rule file (a Path), if it names one
 
 
 def _people(plan) -> list[Person]:
@@ -388,7 +389,8 @@ def evaluate_plan(plan, *, people_override=None) -> PlanResult:
 
         notes += [" ".join(c["text"].split()) for c in load_data_file("cautions")["flight"]]
     return PlanResult(plan.name, plan.kind, plan.source_path, people, [rs.id for rs in rule_sets], legs,
-                      samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes)
+                      samples, member_samples, members, findings, summary, notes, guidance_notes=guidance_notes,
+                      rule_file=plan.rule_file_path)
 
 
 def _validity_notes(legs, members) -> list[str]:

@@ -7,6 +7,8 @@ the HTML report (:mod:`altox.present.report`) all show first, in the same order.
 
 from __future__ import annotations
 
+from altox.guidance.applied import threshold_of
+
 #: what each finding status means for the plan, in words
 STATUS_WORDS = {
     "required-not-planned": "not met",
@@ -16,23 +18,9 @@ STATUS_WORDS = {
 BROKEN = ("required-not-planned", "limit-exceeded")
 
 
-def _list(values) -> str:
-    values = [str(v) for v in values]
-    return values[0] if len(values) == 1 else ", ".join(values[:-1]) + " and " + values[-1]
-
-
-def _threshold(rule_sets, finding):
-    for rs in rule_sets or ():
-        if rs.id == finding.rule_set_id:
-            for th in rs.thresholds:
-                if th.id == finding.threshold_id:
-                    return th
-    return None
-
-
 def what_to_do(finding, threshold, kind: str) -> str:
     """One sentence: what would change the plan so that it meets the rule (guidance only)."""
-    from altox.guidance.checker import figure_checked
+    from altox.guidance.checker import _fmt_list as _list, figure_checked
 
     where = ("day " if kind == "expedition" else "leg ") if len(finding.legs) == 1 else \
         ("days " if kind == "expedition" else "legs ")
@@ -104,7 +92,7 @@ def plan_verdict(result, rule_sets=None) -> dict:
                             m.get("time_limited")))
     findings = []
     for k, f in enumerate(result.findings):
-        th = _threshold(rule_sets, f)
+        th = threshold_of(rule_sets, f)
         findings.append({"number": k + 1, "rule_set_id": f.rule_set_id, "section": f.section,
                          "status": STATUS_WORDS.get(f.status, f.status), "legs": list(f.legs),
                          "message": f.message, "what_to_do": what_to_do(f, th, result.kind),

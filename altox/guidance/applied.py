@@ -6,6 +6,16 @@ from pathlib import Path
 
 
 # -- rule sets --------------------------------------------------------------------------------
+def threshold_of(rule_sets, finding):
+    """The :class:`~altox.guidance.loader.Threshold` a finding was raised under, or None."""
+    for rs in rule_sets or ():
+        if rs.id == finding.rule_set_id:
+            for th in rs.thresholds:
+                if th.id == finding.threshold_id:
+                    return th
+    return None
+
+
 def applied_rule_sets(result, rule_files=()) -> tuple[list, list[str]]:
     """The :class:`~altox.guidance.RuleSet` objects of ``result.rule_sets``.
 
@@ -29,9 +39,12 @@ def applied_rule_sets(result, rule_files=()) -> tuple[list, list[str]]:
     extra = [Path(f) for f in rule_files]
     if any(rid not in found for rid in wanted) and result.source:
         try:
-            from altox.plan.profile import load_plan
+            if hasattr(result, "rule_file"):   # an evaluated plan knows its rule file: no second read
+                own = result.rule_file
+            else:
+                from altox.plan.profile import load_plan
 
-            own = load_plan(result.source).rule_file_path
+                own = load_plan(result.source).rule_file_path
             if own is not None:
                 extra.append(own)
         except (AltoxError, OSError):

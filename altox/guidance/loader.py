@@ -30,7 +30,7 @@ from typing import Literal, Optional
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
 
 from altox.errors import AltoxError, ProfileError
-from altox.units import H_PER_DAY, parse_quantity
+from altox.units import H_PER_DAY, M_PER_FT, parse_quantity
 
 Basis = Literal["read", "from memory", "common practice", "local"]  # the last two for users' own files
 AppliesTo = Literal["crew", "flight crew", "passengers", "all occupants", "party"]
@@ -83,7 +83,7 @@ CRITERIA_WITH_BAND = {"ams_day1_between"}
 _UNIT_RE = re.compile(r"[A-Za-z']+\s*$")
 _DURATION_RE = re.compile(r"^\s*more than\s+(?P<q>.+)$", re.IGNORECASE)
 _ID_RE = r"^[a-z0-9][a-z0-9.-]*$"
-_FT_PER_M = 1.0 / 0.3048
+_FT_PER_M = 1.0 / M_PER_FT
 
 
 def _altitude_ft(text: str, quantity: str, field: str) -> float:
@@ -114,9 +114,9 @@ class Unless(_Strict):
             parse_quantity(text, "length", field="up_to")
         return text
 
-    @property
+    @cached_property   # parsed once per rule set (the checker reads it for every plan)
     def up_to_ft(self) -> float | None:
-        return None if self.up_to is None else round(parse_quantity(self.up_to, "length") * _FT_PER_M, 6)
+        return None if self.up_to is None else _altitude_ft(self.up_to, "flight_altitude", "up_to")
 
 
 class Threshold(_Strict):
@@ -214,7 +214,7 @@ class Threshold(_Strict):
         """Aviation: the top of the band [ft], 'up to and including'; None for no top."""
         return None if self.band_top is None else _altitude_ft(self.band_top, self.quantity, "band_top")
 
-    @property
+    @cached_property   # parsed once per rule set (the checker reads it for every plan)
     def supply_h(self) -> float | None:
         """The supply each occupant needs [h] ('supply' checks), or None."""
         return None if self.supply is None else parse_quantity(self.supply, "duration")

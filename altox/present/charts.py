@@ -479,7 +479,7 @@ def save_chart(result, path, *, feet: bool = False, rule_sets=None, figsize=CHAR
                dpi: float = CHART_DPI) -> Path:
     """Write the chart to ``path`` (format by suffix) through a temporary file in the same folder.
 
-    The caller decides whether an existing file may be replaced (:func:`altox.present.report.check_output`).
+    The caller decides whether an existing file may be replaced (:func:`altox.present.outfiles.check_output`).
     """
     from altox.present.outfiles import write_atomic
 

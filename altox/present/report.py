@@ -16,14 +16,13 @@ Why this module is long: the HTML report is one self-contained document; its sec
 from __future__ import annotations
 
 import html
-import os
 import re
-import tempfile
 from pathlib import Path
 
 from altox.errors import AltoxError
+from altox.guidance.applied import threshold_of
 from altox.present.render import CAUTION, FLAG_BROKEN, FLAG_LEGEND, FLAG_MET, KPA_PER_MMHG, _fmt_h, saturation_text, shown_leg, validity_mark
-from altox.present.outfiles import _same_file, check_output, write_atomic  # noqa: E402,F401  (re-exported)
+from altox.present.outfiles import check_output, write_atomic  # noqa: E402,F401  (re-exported)
 
 REPORT_SUFFIXES = (".html", ".htm")
 #: the Content-Security-Policy of every report: inline styles only, nothing fetched, no scripts
@@ -368,15 +367,6 @@ def _legs(result, feet: bool) -> str:
             f'<p class="small">{_e(FLAG_LEGEND)} Hatched rows: guidance not met.</p>\n</section>')
 
 
-def _threshold_of(rule_sets, finding):
-    for rs in rule_sets:
-        if rs.id == finding.rule_set_id:
-            for th in rs.thresholds:
-                if th.id == finding.threshold_id:
-                    return th
-    return None
-
-
 def _num(v, fmt="{:,.0f}") -> str:
     return "&ndash;" if v is None else _e(fmt.format(v))
 
@@ -396,7 +386,7 @@ def _oxygen(result, rule_sets, review, feet: bool = False) -> str:
 
     legs = [leg for leg in result.legs if leg["oxygen_planned"]]
     found = [(k, f) for k, f in enumerate(result.findings)
-             if (th := _threshold_of(rule_sets, f)) is not None and th.check == "oxygen"]
+             if (th := threshold_of(rule_sets, f)) is not None and th.check == "oxygen"]
     planned = (review or {}).get("planned") or []
     would = (review or {}).get("would_need") or []
     if not legs and not found and not planned and not would:
